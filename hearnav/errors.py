@@ -1,0 +1,56 @@
+"""Exception classes for problems in user input.
+
+Every message states what was expected, what was found, and (where it helps) how to fix it,
+so that the command line can print it on one line without a traceback.
+"""
+
+from __future__ import annotations
+
+import difflib
+from collections.abc import Iterable
+
+
+class HearnavError(Exception):
+    """Base class of every error hearnav raises for bad input or state."""
+
+
+class SceneError(HearnavError):
+    """A scene file or scene description is invalid."""
+
+    def __init__(self, problems: list[str] | str):
+        self.problems = [problems] if isinstance(problems, str) else list(problems)
+        super().__init__("; ".join(self.problems))
+
+
+class ConfigError(HearnavError):
+    """A configuration value or file is invalid."""
+
+
+class SoundError(HearnavError):
+    """A sound category, pool or audio file is invalid."""
+
+
+class CacheError(HearnavError):
+    """A response cache file is missing, corrupt or does not match its key."""
+
+
+class PolicyError(HearnavError):
+    """A policy cannot be found, loaded or used."""
+
+
+class SeparatorError(HearnavError):
+    """A separator cannot be found or used."""
+
+
+def did_you_mean(name: str, valid: Iterable[str]) -> str:
+    """Suffix for an unknown name: the close matches, else the valid names."""
+    valid = sorted(valid)
+    close = difflib.get_close_matches(name, valid, n=3, cutoff=0.6)
+    if close:
+        return f"did you mean {', '.join(repr(c) for c in close)}?"
+    return f"valid names: {', '.join(valid)}"
+
+
+def unknown_name(kind: str, name: str, valid: Iterable[str]) -> str:
+    """Message for an unknown registered name."""
+    return f"unknown {kind} {name!r} (expected one of the registered names); {did_you_mean(name, valid)}"

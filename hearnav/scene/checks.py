@@ -1,0 +1,267 @@
+"""Geometric checks of a structurally valid scene, and its resolution into a :class:`Scene`.
+
+Each check adds one problem line ``field.path: what is wrong (expected ..., got ...)``.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import shapely
+from scipy import ndimage
+
+from hearnav.errors import did_you_mean
+from hearnav.scene import format as fmt
+from hearnav.scene import materials as mats
+from hearnav.scene.model import SOLID_GAP, Scene, SolidObstacle, SourceSpot, counter_clockwise
+
+#: A source spot must be at least this far (m) from every surface.
+SPOT_CLEARANCE = 0.3
+#: Allowed grid spacing in metres.
+SPACING_RANGE = (0.1, 2.0)
+# Raster step (m) for the check that sound can travel through air from a spot to the listener.
+_AIR_STEP = 0.05
+
+
+class Problems(list):
+    """Problem lines collected while checking a scene."""
+
+    def add(self, path: str, message: str) -> None:
+        self.append(f"{path}: {message}")
+
+
+def _fmt_pt(p) -> str:
+    return f"[{p[0]:g}, {p[1]:g}]"
+
+
+def closed_polygon(points: list[list[float]], path: str, problems: Problems) -> np.ndarray | None:
+    """Corners of a closed, simple polygon (without the repeated last corner), or None."""
+    pts = np.asarray(points, dtype=float)
+    if len(pts) < 2 or not np.allclose(pts[0], pts[-1]):
+        last = _fmt_pt(pts[-1]) if len(pts) else "nothing"
+        problems.add(path, f"polygon is not closed (expected the last corner to repeat the first "
+                           f"{_fmt_pt(pts[0]) if len(pts) else ''}, got {last}); append the first corner")
+        return None
+    pts = pts[:-1]
+    distinct = np.unique(np.round(pts, 9), axis=0)
+    if len(distinct) < 3:
+        problems.add(path, f"polygon has too few corners (expected at least 3 distinct corners, got {len(distinct)})")
+        return None
+    ring = shapely.LinearRing(pts)
+    if not ring.is_simple:
+        problems.add(path, "polygon crosses itself (expected a simple polygon whose edges meet only at "
+                           "consecutive corners); reorder the corners")
+        return None
+    if abs(shapely.Polygon(pts).area) < 1e-6:
+        problems.add(path, "polygon has zero area (expected corners that enclose an area)")
+        return None
+    return counter_clockwise(pts)
+
+
+def resolve_material(spec, path: str, problems: Problems) -> mats.Material | None:
+    """A material from a table name, a named entry or explicit coefficients."""
+    if isinstance(spec, fmt.CustomMaterial):
+        return mats.Material("custom", tuple(spec.absorption), mats.scattering_bands(spec.scattering))
+    name = spec if isinstance(spec, str) else spec.name
+    table = mats.absorption_table()
+    if name not in table:
+        problems.add(path, f"unknown material {name!r} (expected a name from the material table or "
+                           f"explicit absorption coefficients); {did_you_mean(name, table)}")
+        return None
+    return mats.named(name, None if isinstance(spec, str) else spec.scattering)
+
+
+def obstacle_polygon(ob: fmt.Obstacle, path: str, problems: Problems) -> np.ndarray | None:
+    """The plan polygon of an obstacle from its polygon, box or partition."""
+    if ob.polygon is not None:
+        return closed_polygon(ob.polygon, f"{path}.polygon", problems)
+    if ob.box is not None:
+        x0, y0, x1, y1 = ob.box
+        if not (x1 > x0 and y1 > y0):
+            problems.add(f"{path}.box", f"box is empty (expected [xmin, ymin, xmax, ymax] with xmax > xmin and "
+                                        f"ymax > ymin, got {ob.box})")
+            return None
+        return np.array([[x0, y0], [x1, y0], [x1, y1], [x0, y1]], dtype=float)
+    a, b = np.asarray(ob.partition.start, float), np.asarray(ob.partition.end, float)
+    length = float(np.linalg.norm(b - a))
+    if length < 1e-6:
+        problems.add(f"{path}.partition", f"partition has zero length (expected start != end, got {_fmt_pt(a)} twice)")
+        return None
+    n = np.array([-(b - a)[1], (b - a)[0]]) / length * ob.partition.thickness / 2
+    return counter_clockwise(np.array([a - n, b - n, b + n, a + n]))
+
+
+def _check_heights(spec: fmt.SceneSpec, problems: Problems) -> bool:
+    ok = True
+    if spec.ceiling_height <= 0:
+        problems.add("ceiling_height", f"height must be positive (expected a value > 0 m, got {spec.ceiling_height:g})")
+        ok = False
+    ear = spec.grid.ear_height
+    if ear <= 0:
+        problems.add("grid.ear_height", f"height must be positive (expected a value > 0 m, got {ear:g})")
+        ok = False
+    elif spec.ceiling_height > 0 and ear >= spec.ceiling_height:
+        problems.add("grid.ear_height", f"ear height is not below the ceiling (expected < {spec.ceiling_height:g} m, "
+                                        f"got {ear:g}); lower the ears or raise the ceiling")
+        ok = False
+    lo, hi = SPACING_RANGE
+    if not lo <= spec.grid.spacing <= hi:
+        problems.add("grid.spacing", f"grid spacing out of range (expected {lo:g} to {hi:g} m, got {spec.grid.spacing:g})")
+        ok = False
+    return ok
+
+
+def _resolve_obstacles(spec: fmt.SceneSpec, room: shapely.Polygon | None, problems: Problems) -> list[SolidObstacle]:
+    solids: list[SolidObstacle] = []
+    shapes: list[tuple[str, shapely.Polygon]] = []
+    names: set[str] = set()
+    for k, ob in enumerate(spec.obstacles):
+        path = f"obstacles[{k}]"
+        if ob.name in names:
+            problems.add(f"{path}.name", f"duplicate obstacle name (expected unique names, got {ob.name!r} twice)")
+        names.add(ob.name)
+        poly = obstacle_polygon(ob, path, problems)
+        material = resolve_material(ob.material, f"{path}.material", problems)
+        full = ob.height == "ceiling"
+        height = spec.ceiling_height if full else float(ob.height)
+        if not full and height <= 0:
+            problems.add(f"{path}.height", f"height must be positive (expected a value > 0 m, got {height:g})")
+            continue
+        if not full and spec.ceiling_height > 0 and height > spec.ceiling_height:
+            problems.add(f"{path}.height", f"obstacle is taller than the room (expected <= {spec.ceiling_height:g} m "
+                                           f"or 'ceiling', got {height:g})")
+            continue
+        if poly is None or room is None:
+            continue
+        shape = shapely.Polygon(poly)
+        if not room.intersects(shape) or room.touches(shape):
+            problems.add(path, f"obstacle {ob.name!r} is outside the outline (expected it inside the room, got "
+                               f"bounds {[round(v, 3) for v in shape.bounds]})")
+            continue
+        if not room.buffer(1e-9).contains(shape):
+            problems.add(path, f"obstacle {ob.name!r} cuts a wall (expected it wholly inside the outline, got "
+                               f"{shape.difference(room).area:.3g} m^2 outside); move or shrink it")
+            continue
+        for other_name, other in shapes:
+            if shape.intersection(other).area > 1e-9:
+                problems.add(path, f"obstacle {ob.name!r} overlaps obstacle {other_name!r} (expected separate solids); "
+                                   f"merge them into one polygon or move one")
+        shapes.append((ob.name, shape))
+        inner = shape.buffer(-SOLID_GAP, join_style="mitre")
+        if inner.is_empty or not isinstance(inner, shapely.Polygon) or not inner.is_valid:
+            problems.add(path, f"obstacle {ob.name!r} is too thin (expected every part at least {2 * SOLID_GAP:g} m "
+                               f"across, got a shape that vanishes or splits when shrunk by {SOLID_GAP:g} m); thicken it")
+            continue
+        if material is not None:
+            shrunk = counter_clockwise(np.asarray(inner.exterior.coords)[:-1])
+            solids.append(SolidObstacle(ob.name, shrunk, height - (SOLID_GAP if full else 0.0), full, material))
+    return solids
+
+
+def _spot_clearance(xyz: np.ndarray, room: shapely.Polygon, solids: list[SolidObstacle], ceiling: float) -> float:
+    """Distance (m) from a point to the nearest surface: walls, floor, ceiling, obstacle faces."""
+    p2 = shapely.Point(xyz[:2])
+    d = min(room.exterior.distance(p2), xyz[2], ceiling - xyz[2])
+    for ob in solids:
+        shape = shapely.Polygon(ob.polygon)
+        horiz = 0.0 if shape.contains(p2) else shape.distance(p2)
+        vert = max(0.0, xyz[2] - ob.height)
+        d = min(d, float(np.hypot(horiz, vert)))
+    return float(d)
+
+
+def _resolve_spots(spec: fmt.SceneSpec, room: shapely.Polygon | None, solids: list[SolidObstacle],
+                   problems: Problems) -> list[SourceSpot]:
+    spots: list[SourceSpot] = []
+    names: set[str] = set()
+    for k, sp in enumerate(spec.spots):
+        path = f"spots[{k}]"
+        if sp.name in names:
+            problems.add(f"{path}.name", f"duplicate spot name (expected unique names, got {sp.name!r} twice)")
+        names.add(sp.name)
+        xyz = np.array([sp.position[0], sp.position[1], sp.height], dtype=float)
+        cats = tuple(sp.categories) if sp.categories else fmt.CATEGORY_NAMES
+        spots.append(SourceSpot(sp.name, xyz, cats))
+        if room is None:
+            continue
+        p2 = shapely.Point(xyz[:2])
+        if not room.contains(p2):
+            problems.add(f"{path}.position", f"spot {sp.name!r} is outside the outline (expected a point inside the room, "
+                                             f"got {_fmt_pt(xyz)})")
+            continue
+        if spec.ceiling_height <= 0:
+            continue  # the ceiling itself is reported; heights and clearances cannot be judged against it
+        if not 0 < sp.height < spec.ceiling_height:
+            problems.add(f"{path}.height", f"spot height out of range (expected between 0 and {spec.ceiling_height:g} m, "
+                                           f"got {sp.height:g})")
+            continue
+        inside = [ob.name for ob in solids if shapely.Polygon(ob.polygon).contains(p2) and xyz[2] <= ob.height]
+        if inside:
+            problems.add(f"{path}.position", f"spot {sp.name!r} is inside obstacle {inside[0]!r} (expected free air, got "
+                                             f"{_fmt_pt(xyz)} at height {sp.height:g} m)")
+            continue
+        clearance = _spot_clearance(xyz, room, solids, spec.ceiling_height)
+        if clearance < SPOT_CLEARANCE - 1e-9:
+            problems.add(f"{path}.position", f"spot {sp.name!r} is too close to a surface (expected at least "
+                                             f"{SPOT_CLEARANCE:g} m of clearance, got {clearance:.2f} m)")
+    return spots
+
+
+def air_regions(scene: Scene) -> tuple[np.ndarray, np.ndarray, float]:
+    """Label the plan's regions that air connects, with full-height obstacles as the only barriers.
+
+    Returns
+    -------
+    origin : (2,) position of raster cell (0, 0).
+    labels : (nx, ny) int region label, 0 for solid.
+    step : raster step in metres.
+    """
+    lo, hi = scene.outline.min(axis=0), scene.outline.max(axis=0)
+    n = np.ceil((hi - lo) / _AIR_STEP).astype(int) + 1
+    gi, gj = np.meshgrid(np.arange(n[0]), np.arange(n[1]), indexing="ij")
+    x, y = lo[0] + gi * _AIR_STEP, lo[1] + gj * _AIR_STEP
+    air = shapely.Polygon(scene.outline)
+    for ob in scene.obstacles:
+        if ob.full_height:
+            air = air.difference(shapely.Polygon(ob.polygon).buffer(SOLID_GAP))
+    labels, _ = ndimage.label(shapely.contains_xy(air, x, y))
+    return lo, labels, _AIR_STEP
+
+
+def check_audible(scene: Scene, grid, problems: Problems) -> None:
+    """Every spot must share air with at least one reachable cell."""
+    origin, labels, step = air_regions(scene)
+    cells = np.round((grid.centers - origin) / step).astype(int)
+    reachable = set(np.unique(labels[cells[:, 0], cells[:, 1]]).tolist()) - {0}
+    for k, sp in enumerate(scene.spots):
+        i, j = np.round((sp.position[:2] - origin) / step).astype(int)
+        region = labels[min(max(i, 0), labels.shape[0] - 1), min(max(j, 0), labels.shape[1] - 1)]
+        if region not in reachable:
+            problems.add(f"spots[{k}]", f"spot {sp.name!r} cannot be heard from any reachable cell (expected air "
+                                        f"connecting it to the start region's cells, got a region sealed off by "
+                                        f"full-height obstacles); add a doorway or move the spot")
+
+
+def resolve(spec: fmt.SceneSpec, text: str) -> tuple[Scene | None, Problems]:
+    """Check a structurally valid spec; return the scene (None on any problem) and the problems."""
+    problems = Problems()
+    _check_heights(spec, problems)
+    outline = closed_polygon(spec.outline, "outline", problems)
+    room = shapely.Polygon(outline) if outline is not None else None
+    walls = resolve_material(spec.materials.walls, "materials.walls", problems)
+    floor = resolve_material(spec.materials.floor, "materials.floor", problems)
+    ceiling = resolve_material(spec.materials.ceiling, "materials.ceiling", problems)
+    solids = _resolve_obstacles(spec, room, problems)  # a bad ear height or spacing must not hide obstacle problems
+    spots = _resolve_spots(spec, room, solids, problems)
+    if problems:
+        return None, problems
+    scene = Scene(spec, outline, tuple(solids), walls, floor, ceiling, tuple(spots), text)
+    from hearnav.scene.grid import build_grid
+
+    grid = build_grid(scene)
+    if grid.n_cells == 0:
+        problems.add("grid", f"no navigable cell (expected free floor at least 0.2 m from every surface connected to "
+                             f"the start region {spec.grid.start_region.box}, got none); move the start region or "
+                             f"reduce the spacing")
+        return None, problems
+    check_audible(scene, grid, problems)
+    return (None if problems else scene), problems
