@@ -1,0 +1,178 @@
+"""The listening API: what a two-eared listener hears at a pose, window by window.
+
+Given a scene's responses, the sources (a spot and a dry signal each) and a time window, it returns the
+binaural mixture, each source's image at the two ears and the target reference (the target's dry signal
+delayed and scaled by its earliest arriving path, at the head centre). Mixing is FFT convolution with
+cached response spectra over the window plus everything emitted a response length before it, so the
+reverberant tail of earlier sound reaches the listener inside the window. After a move, the first
+``fade`` samples of a window cross-fade from the old pose's output to the new one's, so a move never clicks.
+"""
+
+from __future__ import annotations
+
+from collections import OrderedDict
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.fft as sfft
+
+from hearnav.acoustics.responses import Responses
+from hearnav.errors import ConfigError
+
+#: Default cross-fade after a move, in seconds.
+FADE_S = 0.02
+#: Default memory budget of the response-spectrum cache, bytes.
+SPECTRA_BYTES = 512 * 2**20
+
+
+@dataclass(frozen=True)
+class Source:
+    """A sound source: a spot index and its dry signal (float, from emission time zero)."""
+
+    spot: int
+    signal: np.ndarray
+
+
+@dataclass(frozen=True)
+class Window:
+    """What the listener hears in one window."""
+
+    start: int  # first sample, in emission time
+    mixture: np.ndarray  # (2, n)
+    target_image: np.ndarray  # (2, n) the target's image at the two ears
+    reference: np.ndarray  # (n,) the target reference
+    images: np.ndarray | None  # (n_sources, 2, n) every source's image, when asked for
+
+
+class ListeningWorld:
+    """A scene's responses ready for FFT mixing of windows of ``window`` samples."""
+
+    def __init__(self, responses: Responses, window: int, fade_s: float = FADE_S, spectra_bytes: int = SPECTRA_BYTES):
+        if window <= 0:
+            raise ConfigError(f"window must be a positive number of samples (got {window})")
+        self.responses = responses
+        self.fs = responses.fs
+        self.window = int(window)
+        self.fade = int(round(fade_s * self.fs))
+        self.span = self.window + self.fade  # samples rendered per call
+        self.n_fft = sfft.next_fast_len(self.span + responses.length - 1, real=True)
+        self.history = responses.length - 1  # past samples each render needs
+        self._omega = 2 * np.pi * sfft.rfftfreq(self.n_fft)  # rad/sample
+        self._spectra: OrderedDict[tuple[int, int, int], np.ndarray] = OrderedDict()
+        self._max_spectra = max(16, spectra_bytes // (2 * (self.n_fft // 2 + 1) * 8))
+
+    @property
+    def warmup(self) -> int:
+        """First sample at which a window has a full history (sources start at sample 0)."""
+        return self.history
+
+    def signal_length(self, n_windows: int) -> int:
+        """Dry samples each source needs for ``n_windows`` windows starting at :attr:`warmup`."""
+        return self.warmup + n_windows * self.window + self.fade
+
+    def spectrum(self, cell: int, heading: int, spot: int) -> np.ndarray:
+        """(2, F) complex64 spectrum of a response, kept in a bounded LRU cache."""
+        key = (cell, heading, spot)
+        spec = self._spectra.get(key)
+        if spec is None:
+            spec = sfft.rfft(self.responses.response(cell, heading, spot), self.n_fft, axis=-1).astype(np.complex64)
+            self._spectra[key] = spec
+            if len(self._spectra) > self._max_spectra:
+                self._spectra.popitem(last=False)
+        else:
+            self._spectra.move_to_end(key)
+        return spec
+
+    def segment_spectra(self, sources: list[Source], start: int) -> np.ndarray:
+        """(n_sources, F) spectra of each dry signal over [start - history, start + span)."""
+        lo, hi = start - self.history, start + self.span
+        segs = np.zeros((len(sources), self.n_fft), np.float32)
+        for i, src in enumerate(sources):
+            a, b = max(lo, 0), min(hi, len(src.signal))
+            if b > a:
+                segs[i, a - lo : b - lo] = src.signal[a:b]
+        return sfft.rfft(segs, axis=-1)
+
+    def render(self, cell: int, heading: int, sources: list[Source], start: int, target: int = 0,
+               all_images: bool = False, seg: np.ndarray | None = None) -> Window:
+        """The span [start, start + window + fade) heard at a pose, with no cross-fade."""
+        seg = self.segment_spectra(sources, start) if seg is None else seg
+        per_source = np.stack([seg[i][None, :] * self.spectrum(cell, heading, s.spot) for i, s in enumerate(sources)])
+        keep = slice(self.history, self.history + self.span)
+        mix = sfft.irfft(per_source.sum(axis=0), self.n_fft, axis=-1)[:, keep]
+        timg = sfft.irfft(per_source[target], self.n_fft, axis=-1)[:, keep]
+        images = sfft.irfft(per_source, self.n_fft, axis=-1)[..., keep] if all_images else None
+        spot = sources[target].spot
+        delay = float(self.responses.first_delay[cell, spot]) * self.fs + self.responses.lead
+        gain = float(self.responses.first_gain[cell, spot])
+        ref = sfft.irfft(seg[target] * gain * np.exp(-1j * self._omega * delay), self.n_fft)[keep]
+        return Window(start, mix, timg, ref, images)
+
+
+def _ramp(n: int) -> np.ndarray:
+    """Raised-cosine ramp from 0 to 1 over n samples."""
+    return 0.5 - 0.5 * np.cos(np.pi * (np.arange(n) + 0.5) / n) if n else np.zeros(0)
+
+
+class ListeningSession:
+    """Consecutive windows for one set of sources, with cross-fades between poses."""
+
+    def __init__(self, world: ListeningWorld, sources: list[Source], target: int = 0, all_images: bool = False):
+        if not 0 <= target < len(sources):
+            raise ConfigError(f"target must index one of the {len(sources)} sources (got {target})")
+        self.world, self.sources, self.target, self.all_images = world, list(sources), target, all_images
+        self.time = world.warmup
+        self._tail: Window | None = None
+        self._ramp = _ramp(world.fade)
+        self._seg: np.ndarray | None = None
+
+    def _current_seg(self) -> np.ndarray:
+        if self._seg is None:
+            self._seg = self.world.segment_spectra(self.sources, self.time)
+        return self._seg
+
+    def peek(self, cell: int, heading: int) -> Window:
+        """The current window at any pose, without moving or advancing time (no cross-fade)."""
+        win = self.world.render(cell, heading, self.sources, self.time, self.target, self.all_images, self._current_seg())
+        return _cut(win, self.world.window)
+
+    def listen(self, cell: int, heading: int) -> Window:
+        """The current window at a pose, cross-faded from the previous pose; then advance one window."""
+        w = self.world
+        span = w.render(cell, heading, self.sources, self.time, self.target, self.all_images, self._current_seg())
+        if self._tail is not None and w.fade:
+            span = _blend(self._tail, span, self._ramp)
+        out = _cut(span, w.window)
+        self._tail = _shift(span, w.window)
+        self.time += w.window
+        self._seg = None
+        return out
+
+
+def _fields(win: Window) -> dict[str, np.ndarray | None]:
+    return {"mixture": win.mixture, "target_image": win.target_image, "reference": win.reference, "images": win.images}
+
+
+def _cut(win: Window, n: int) -> Window:
+    """The first n samples of a span."""
+    return Window(win.start, **{k: (None if v is None else v[..., :n]) for k, v in _fields(win).items()})
+
+
+def _shift(win: Window, n: int) -> Window:
+    """The samples of a span after its first n (the start of the next window at the old pose)."""
+    return Window(win.start + n, **{k: (None if v is None else v[..., n:]) for k, v in _fields(win).items()})
+
+
+def _blend(old: Window, new: Window, ramp: np.ndarray) -> Window:
+    """Cross-fade the first len(ramp) samples of ``new`` from ``old``."""
+    m = len(ramp)
+    out = {}
+    for k, v in _fields(new).items():
+        o = _fields(old)[k]
+        if v is None or o is None:
+            out[k] = v
+            continue
+        v = v.copy()
+        v[..., :m] = o[..., :m] * (1 - ramp) + v[..., :m] * ramp
+        out[k] = v
+    return Window(new.start, **out)
