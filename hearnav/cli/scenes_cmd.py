@@ -1,0 +1,134 @@
+"""``hearnav scenes``: list, check, show and build scenes."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+from hearnav.errors import SceneError
+
+
+def register(sub) -> None:
+    """Add the ``scenes`` subcommand group."""
+    p = sub.add_parser("scenes", help="list, check, draw and build scenes",
+                       description="Work with the bundled scenes or your own scene files.")
+    ss = p.add_subparsers(dest="scenes_command", metavar="ACTION", required=True)
+
+    ls = ss.add_parser("list", help="table of scenes: split, area, cells, spots, RT60 estimate")
+    ls.add_argument("--split", choices=["train", "val", "test"], help="only this split")
+    ls.set_defaults(run=run_list)
+
+    ck = ss.add_parser("check", help="validate scene files; exit 1 with one line per problem")
+    ck.add_argument("files", nargs="*", type=Path, help="YAML files (default: every bundled scene)")
+    ck.set_defaults(run=run_check)
+
+    sh = ss.add_parser("show", help="draw a scene's plan to an image")
+    sh.add_argument("name", help="scene name or path to a YAML file")
+    sh.add_argument("--out", type=Path, required=True, help="output image, e.g. plan.png")
+    sh.set_defaults(run=run_show)
+
+    bd = ss.add_parser("build", help="precompute and cache binaural responses")
+    bd.add_argument("names", nargs="*", help="scene names or YAML files (default: the default scene)")
+    bd.add_argument("--split", choices=["train", "val", "test"], help="every scene of a split")
+    bd.add_argument("--threads", type=int, default=1, help="pyroomacoustics threads (default 1)")
+    bd.set_defaults(run=run_build)
+
+
+def resolve_scene(name: str):
+    """A scene from a bundled name, a generator name (gen-<seed>) or a YAML path."""
+    from hearnav.scene import load_scene
+    from hearnav.scene.library import load_named
+
+    if name.endswith((".yaml", ".yml")) or Path(name).is_file():
+        return load_scene(name)
+    return load_named(name)
+
+
+def _eyring_mid(scene) -> float:
+    from hearnav.acoustics.decay import scene_rt60
+
+    return float(np.mean(scene_rt60(scene)[2:4]))  # 500 Hz and 1 kHz
+
+
+def run_list(args) -> int:
+    from hearnav.scene.grid import build_grid
+    from hearnav.scene.library import load_named, scene_names
+
+    rows = []
+    for name in scene_names(args.split):
+        scene = load_named(name)
+        grid = build_grid(scene)
+        rows.append((name, scene.split, f"{scene.floor_area:.1f}", str(grid.n_cells), str(len(scene.spots)),
+                     f"{_eyring_mid(scene):.2f}"))
+    header = ("name", "split", "area_m2", "cells", "spots", "rt60_s")
+    _print_table(header, rows)
+    print("rt60_s: Eyring estimate, mean of the 500 Hz and 1 kHz bands.")
+    return 0
+
+
+def _print_table(header: tuple[str, ...], rows: list[tuple[str, ...]]) -> None:
+    widths = [max(len(h), *(len(r[i]) for r in rows)) if rows else len(h) for i, h in enumerate(header)]
+    print("  ".join(h.ljust(w) for h, w in zip(header, widths)))
+    for r in rows:
+        print("  ".join(v.ljust(w) for v, w in zip(r, widths)))
+
+
+def run_check(args) -> int:
+    from hearnav.scene import load_scene
+    from hearnav.scene.library import scene_files
+
+    files = args.files or scene_files()
+    bad = 0
+    for f in files:
+        try:
+            load_scene(f)
+            print(f"ok: {f}")
+        except SceneError as exc:
+            bad += 1
+            for line in exc.problems:
+                print(line)
+    if bad:
+        print(f"{bad} of {len(files)} scene files have problems", file=sys.stderr)
+    return 1 if bad else 0
+
+
+def run_show(args) -> int:
+    from hearnav.plots.plan import save_plan
+    from hearnav.scene.grid import build_grid
+
+    scene = resolve_scene(args.name)
+    out = save_plan(scene, build_grid(scene), args.out)
+    print(f"wrote {out}")
+    return 0
+
+
+def run_build(args) -> int:
+    from tqdm import tqdm
+
+    from hearnav.acoustics import AcousticSettings, cache_path, load_or_build
+    from hearnav.scene.grid import build_grid
+    from hearnav.scene.library import DEFAULT_SCENE, scene_names
+
+    names = list(args.names) or (scene_names(args.split) if args.split else [DEFAULT_SCENE])
+    settings = AcousticSettings(n_threads=max(1, args.threads))
+    for name in names:
+        scene = resolve_scene(name)
+        grid = build_grid(scene, settings.n_headings)
+        t0 = time.perf_counter()
+        with tqdm(total=grid.n_cells, desc=f"{scene.name}", unit="cell", file=sys.stderr,
+                  disable=None) as bar:
+            resp = load_or_build(scene, settings, grid, progress=bar.update,
+                                 report=lambda msg: print(f"hearnav: {msg}", file=sys.stderr))
+        seconds = time.perf_counter() - t0
+        path = cache_path(scene, settings)
+        print(f"{scene.name}: {grid.n_cells} cells x {settings.n_headings} headings x {len(scene.spots)} spots, "
+              f"responses {resp.length / resp.fs * 1000:.0f} ms at {resp.fs} Hz, "
+              f"line of sight {resp.line_of_sight.mean() * 100:.0f}% of cell-spot pairs")
+        print(f"  RT60 ray-traced (500 Hz / 1 kHz): {resp.rt60[2]:.2f} / {resp.rt60[3]:.2f} s; "
+              f"Eyring estimate {_eyring_mid(scene):.2f} s")
+        print(f"  cache {path} ({path.stat().st_size / 1e6:.1f} MB), {seconds:.1f} s")
+    return 0

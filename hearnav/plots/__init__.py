@@ -1,0 +1,1 @@
+"""Figures: floorplans, trajectories, per-episode gains."""
