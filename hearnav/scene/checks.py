@@ -189,7 +189,7 @@ def _resolve_spots(spec: fmt.SceneSpec, room: shapely.Polygon | None, solids: li
                                              f"got {_fmt_pt(xyz)})")
             continue
         if spec.ceiling_height <= 0:
-            continue  # the ceiling itself is reported; heights and clearances cannot be judged against it
+            continue  # the bad ceiling is reported; heights and clearances cannot be judged against it
         if not 0 < sp.height < spec.ceiling_height:
             problems.add(f"{path}.height", f"spot height out of range (expected between 0 and {spec.ceiling_height:g} m, "
                                            f"got {sp.height:g})")

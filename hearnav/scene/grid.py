@@ -23,6 +23,8 @@ HEADING_COUNTS = (4, 8)
 
 # Forward steps for 8 headings, counter-clockwise from +x; 4 headings use every second one.
 _STEPS8 = np.array([(1, 0), (1, 1), (0, 1), (-1, 1), (-1, 0), (-1, -1), (0, -1), (1, -1)])
+# Moves whose openness is stored (the reverse moves share it): east, north, north-east, south-east.
+_STORED_MOVES = ((1, 0), (0, 1), (1, 1), (1, -1))
 
 
 @dataclass(frozen=True)
@@ -35,8 +37,8 @@ class Grid:
     ij: np.ndarray  # (n_cells, 2) grid indices of each cell
     n_headings: int
     start_cells: np.ndarray  # (n_start,) ids of cells inside the start region
-    east: np.ndarray | None = None  # (nx, ny) bool: the move (i, j) -> (i + 1, j) is open; None: open when both free
-    north: np.ndarray | None = None  # (nx, ny) bool: the move (i, j) -> (i, j + 1) is open
+    # (4, nx, ny) bool: whether the move from (i, j) by each of _STORED_MOVES is open; None: open when both free
+    open_moves: np.ndarray | None = None
 
     @property
     def n_cells(self) -> int:
@@ -59,12 +61,11 @@ class Grid:
         """The cell one forward move away, or -1 when the move is blocked."""
         di, dj = (int(v) for v in self.step(heading))
         i0, j0 = (int(v) for v in self.ij[cell])
-        if di and dj:
-            # no cutting corners on a diagonal move: both L-shaped paths around it must be open
+        ok = self._open(i0, j0, di, dj)
+        if ok and di and dj:
+            # no cutting corners on a diagonal move: both L-shaped paths around it must be open too
             ok = (self._open(i0, j0, di, 0) and self._open(i0 + di, j0, 0, dj) and
                   self._open(i0, j0, 0, dj) and self._open(i0, j0 + dj, di, 0))
-        else:
-            ok = self._open(i0, j0, di, dj)
         return int(self.index[i0 + di, j0 + dj]) if ok else -1
 
     def neighbours(self, cell: int) -> list[int]:
@@ -77,14 +78,14 @@ class Grid:
         return 0 <= i < self.index.shape[0] and 0 <= j < self.index.shape[1] and self.index[i, j] >= 0
 
     def _open(self, i: int, j: int, di: int, dj: int) -> bool:
-        """Whether the one-axis move (i, j) -> (i + di, j + dj) joins two cells without crossing a surface."""
+        """Whether the move (i, j) -> (i + di, j + dj) joins two cells without bringing the listener into a surface."""
         if not (self._free(i, j) and self._free(i + di, j + dj)):
             return False
-        if self.east is None or self.north is None:
+        if self.open_moves is None:
             return True
-        if di:
-            return bool(self.east[min(i, i + di), j])
-        return bool(self.north[i, min(j, j + dj)])
+        if (di, dj) not in _STORED_MOVES:  # the reverse of a stored move
+            i, j, di, dj = i + di, j + dj, -di, -dj
+        return bool(self.open_moves[_STORED_MOVES.index((di, dj)), i, j])
 
     def cell_at(self, xy: np.ndarray) -> int:
         """The cell whose centre is nearest to ``xy`` among navigable cells."""
@@ -127,28 +128,27 @@ def candidate_mask(scene: Scene, spacing: float) -> tuple[np.ndarray, np.ndarray
     return lo, clear
 
 
-def open_moves(scene: Scene, origin: np.ndarray, mask: np.ndarray, spacing: float) -> tuple[np.ndarray, np.ndarray]:
-    """Which 4-neighbour moves between candidate lattice points keep the listener clear of every surface.
+def open_moves(scene: Scene, origin: np.ndarray, mask: np.ndarray, spacing: float) -> np.ndarray:
+    """Which moves between candidate lattice points keep the listener clear of every surface.
 
     Returns
     -------
-    east : (nx, ny) bool, the move (i, j) -> (i + 1, j) is open.
-    north : (nx, ny) bool, the move (i, j) -> (i, j + 1) is open.
+    (4, nx, ny) bool: entry [k, i, j] tells whether the move from (i, j) by ``_STORED_MOVES[k]`` is open.
     """
     walls = surfaces_2d(scene)
-    out = []
-    for di, dj in ((1, 0), (0, 1)):
+    nx, ny = mask.shape
+    out = np.zeros((len(_STORED_MOVES),) + mask.shape, dtype=bool)
+    for k, (di, dj) in enumerate(_STORED_MOVES):
+        j0, j1 = max(0, -dj), ny - max(0, dj)  # rows whose neighbour (i + di, j + dj) exists
         both = np.zeros_like(mask)
-        both[: mask.shape[0] - di, : mask.shape[1] - dj] = mask[: mask.shape[0] - di, : mask.shape[1] - dj] & mask[di:, dj:]
+        both[: nx - di, j0:j1] = mask[: nx - di, j0:j1] & mask[di:, j0 + dj: j1 + dj]
         gi, gj = np.nonzero(both)
         a = origin + np.stack([gi, gj], axis=1) * spacing
         b = a + np.array([di, dj]) * spacing
         segments = shapely.linestrings(np.stack([a, b], axis=1))
-        open_ = np.zeros_like(mask)
         # the endpoints are already LISTENER_RADIUS clear; 1e-9 absorbs rounding for walls parallel to the move
-        open_[gi, gj] = shapely.distance(walls, segments) >= LISTENER_RADIUS - 1e-9
-        out.append(open_)
-    return out[0], out[1]
+        out[k, gi, gj] = shapely.distance(walls, segments) >= LISTENER_RADIUS - 1e-9
+    return out
 
 
 def build_grid(scene: Scene, n_headings: int = 4) -> Grid:
@@ -163,11 +163,11 @@ def build_grid(scene: Scene, n_headings: int = 4) -> Grid:
     gi, gj = np.nonzero(mask)
     px, py = origin[0] + gi * spacing, origin[1] + gj * spacing
     in_start = (px >= x0) & (px <= x1) & (py >= y0) & (py <= y1)
-    east, north = open_moves(scene, origin, mask, spacing)
+    moves = open_moves(scene, origin, mask, spacing)
     ids = np.full(mask.shape, -1, dtype=np.int64)
     ids[gi, gj] = np.arange(gi.size)
-    ei, ej = np.nonzero(east)
-    ni, nj = np.nonzero(north)
+    ei, ej = np.nonzero(moves[0])
+    ni, nj = np.nonzero(moves[1])
     rows = np.concatenate([ids[ei, ej], ids[ni, nj]])
     cols = np.concatenate([ids[ei + 1, ej], ids[ni, nj + 1]])
     graph = coo_matrix((np.ones(rows.size), (rows, cols)), shape=(gi.size, gi.size))
@@ -181,4 +181,4 @@ def build_grid(scene: Scene, n_headings: int = 4) -> Grid:
     ij = np.stack([ki, kj], axis=1)
     cx, cy = origin[0] + ki * spacing, origin[1] + kj * spacing
     start = np.nonzero((cx >= x0) & (cx <= x1) & (cy >= y0) & (cy <= y1))[0]
-    return Grid(spacing, origin, index, ij, n_headings, start, east & keep, north & keep)
+    return Grid(spacing, origin, index, ij, n_headings, start, moves & keep)
