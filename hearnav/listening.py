@@ -16,6 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.fft as sfft
 
+from hearnav.acoustics.render import FD_TAPS, fd_taps
 from hearnav.acoustics.responses import Responses
 from hearnav.errors import ConfigError
 
@@ -57,7 +58,6 @@ class ListeningWorld:
         self.span = self.window + self.fade  # samples rendered per call
         self.n_fft = sfft.next_fast_len(self.span + responses.length - 1, real=True)
         self.history = responses.length - 1  # past samples each render needs
-        self._omega = 2 * np.pi * sfft.rfftfreq(self.n_fft)  # rad/sample
         self._spectra: OrderedDict[tuple[int, int, int], np.ndarray] = OrderedDict()
         self._max_spectra = max(16, spectra_bytes // (2 * (self.n_fft // 2 + 1) * 8))
 
@@ -102,11 +102,24 @@ class ListeningWorld:
         mix = sfft.irfft(per_source.sum(axis=0), self.n_fft, axis=-1)[:, keep]
         timg = sfft.irfft(per_source[target], self.n_fft, axis=-1)[:, keep]
         images = sfft.irfft(per_source, self.n_fft, axis=-1)[..., keep] if all_images else None
-        spot = sources[target].spot
-        delay = float(self.responses.first_delay[cell, spot]) * self.fs + self.responses.lead
-        gain = float(self.responses.first_gain[cell, spot])
-        ref = sfft.irfft(seg[target] * gain * np.exp(-1j * self._omega * delay), self.n_fft)[keep]
+        ref = self.reference(cell, sources[target], start)
         return Window(start, mix, timg, ref, images)
+
+    def reference(self, cell: int, source: Source, start: int) -> np.ndarray:
+        """(span,) the source's dry signal delayed and scaled by its earliest path, with the responses' lead.
+
+        The fractional delay uses the same windowed-sinc filter as the responses, in the time domain, so the
+        reference is one time-invariant filter of the dry signal and continuous across windows.
+        """
+        delay = float(self.responses.first_delay[cell, source.spot]) * self.fs + self.responses.lead
+        gain = float(self.responses.first_gain[cell, source.spot])
+        first, taps = fd_taps(np.asarray(delay))
+        lo = start - int(first) - FD_TAPS + 1  # oldest dry sample needed
+        x = np.zeros(self.span + FD_TAPS - 1, np.float64)
+        a, b = max(lo, 0), min(start + self.span - int(first), len(source.signal))
+        if b > a:
+            x[a - lo : b - lo] = source.signal[a:b]
+        return (gain * np.convolve(x, taps, mode="valid")).astype(np.float32)
 
 
 def _ramp(n: int) -> np.ndarray:

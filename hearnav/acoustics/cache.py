@@ -97,10 +97,10 @@ def load(path: Path, key: str | None = None) -> Responses:
         raise CacheError(f"{path}: cache checksum mismatch (expected {str(meta.get('checksum'))[:12]}..., the data differ)")
     if key is not None and meta.get("key") != key:
         raise CacheError(f"{path}: cache key mismatch (expected {key}, got {meta.get('key')})")
-    arrays["spot_names"] = tuple(json.loads(str(arrays["spot_names"])))
     missing = set(_FIELDS) - set(arrays)
     if missing:
         raise CacheError(f"{path}: cache file lacks {sorted(missing)} (expected every response field)")
+    arrays["spot_names"] = tuple(json.loads(str(arrays["spot_names"])))
     fields = {k: arrays[k] for k in _FIELDS}
     fields["fs"], fields["lead"] = int(fields["fs"]), int(fields["lead"])
     return Responses(**fields)

@@ -1,6 +1,6 @@
 """Probe points for the late tail: a few cells spread over the plan, and each cell's nearest probe.
 
-Distances are walking distances on the grid (breadth-first over 4-neighbour moves), so a probe behind a
+Distances are walking distances on the grid (breadth-first over the grid's open 4-neighbour moves), so a probe behind a
 partition is not taken for a cell in the next room when one on the cell's own side is nearer on foot.
 """
 
@@ -23,17 +23,12 @@ def walking_distances(grid: Grid, source: int) -> np.ndarray:
     dist = np.full(grid.n_cells, np.inf)
     dist[source] = 0
     queue = deque([source])
-    index = grid.index
     while queue:
         c = queue.popleft()
-        i, j = grid.ij[c]
-        for di, dj in ((1, 0), (-1, 0), (0, 1), (0, -1)):
-            a, b = i + di, j + dj
-            if 0 <= a < index.shape[0] and 0 <= b < index.shape[1]:
-                n = index[a, b]
-                if n >= 0 and dist[n] == np.inf:
-                    dist[n] = dist[c] + 1
-                    queue.append(n)
+        for n in grid.neighbours(c):
+            if dist[n] == np.inf:
+                dist[n] = dist[c] + 1
+                queue.append(n)
     return dist
 
 

@@ -56,7 +56,7 @@ def path_geometry(paths: PathSet, headings: np.ndarray, c: float, radius: float)
     return r / c + head.woodworth_delay(beta, radius, c), head.shadow_alpha(beta)
 
 
-def _fd_taps(position: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def fd_taps(position: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Hann-windowed sinc taps for fractional sample positions.
 
     Parameters
@@ -93,7 +93,7 @@ def early_fast(paths: PathSet, headings: np.ndarray, fs: int, c: float, radius: 
     if n_p == 0:
         return np.zeros((paths.n_pairs, n_h, 2, length), np.float32)
     delay, alpha = path_geometry(paths, headings, c, radius)
-    first, taps = _fd_taps(delay * fs + lead)  # (H, 2, P), (H, 2, P, K)
+    first, taps = fd_taps(delay * fs + lead)  # (H, 2, P), (H, 2, P, K)
     offsets = first[..., None] + np.arange(FD_TAPS)
     inside = (offsets >= 0) & (offsets < n_fft)
     resp = (paths.owner[None, None, :] * n_h + np.arange(n_h)[:, None, None]) * 2 + np.arange(2)[None, :, None]
