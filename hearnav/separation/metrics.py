@@ -1,0 +1,93 @@
+"""Scale-invariant signal-to-distortion ratio (SI-SDR).
+
+After J. Le Roux, S. Wisdom, H. Erdogan & J. R. Hershey, "SDR - half-baked or well done?", ICASSP 2019:
+with the optimal scale alpha = <est, ref> / ||ref||^2 of the reference,
+
+    SI-SDR = 10 log10( ||alpha ref||^2 / ||alpha ref - est||^2 )  dB.
+
+The ratio is clipped to [1e-10, 1e10], i.e. the result to [-100, 100] dB (:data:`CLIP_DB`), so a perfect
+estimate gives +100 dB rather than infinity and an estimate orthogonal to the reference (or silent) gives
+-100 dB rather than minus infinity. Away from the clip the value is exact (no epsilon is added).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from hearnav.errors import ConfigError
+
+#: Results are clipped to [-CLIP_DB, CLIP_DB].
+CLIP_DB = 100.0
+_RATIO = 10.0 ** (CLIP_DB / 10)
+
+
+def _checked(estimate: np.ndarray, reference: np.ndarray, batch: bool) -> tuple[np.ndarray, np.ndarray]:
+    est = np.asarray(estimate, dtype=float)
+    ref = np.asarray(reference, dtype=float)
+    want = "(..., n) arrays of the same shape" if batch else "(n,) arrays"
+    if est.shape != ref.shape:
+        raise ConfigError(f"SI-SDR needs estimate and reference as {want}; got estimate {est.shape} and "
+                          f"reference {ref.shape}")
+    if (not batch and est.ndim != 1) or est.ndim == 0 or est.shape[-1] == 0:
+        raise ConfigError(f"SI-SDR needs estimate and reference as non-empty {want}; got shape {est.shape}")
+    for name, arr in (("estimate", est), ("reference", ref)):
+        if not np.all(np.isfinite(arr)):
+            raise ConfigError(f"SI-SDR needs finite samples; the {name} has {int(np.sum(~np.isfinite(arr)))} "
+                              "NaN or infinite values")
+    return est, ref
+
+
+def si_sdr_batch(estimates: np.ndarray, references: np.ndarray, zero_mean: bool = False) -> np.ndarray:
+    """SI-SDR of many estimate/reference pairs at once.
+
+    Parameters
+    ----------
+    estimates, references : (..., n) real arrays of the same shape, n >= 1.
+    zero_mean : subtract each signal's mean first.
+
+    Returns
+    -------
+    (...) SI-SDR in dB, clipped to [-100, 100].
+
+    Raises
+    ------
+    ConfigError
+        Shapes differ, are empty, contain NaN/inf, or a reference is silent.
+    """
+    est, ref = _checked(estimates, references, batch=True)
+    if zero_mean:
+        est = est - est.mean(axis=-1, keepdims=True)
+        ref = ref - ref.mean(axis=-1, keepdims=True)
+    energy = np.einsum("...n,...n->...", ref, ref)
+    if np.any(energy == 0):
+        raise ConfigError("SI-SDR needs a reference with energy; got a silent (all-zero"
+                          f"{' after removing the mean' if zero_mean else ''}) reference")
+    alpha = np.einsum("...n,...n->...", est, ref) / energy
+    target = alpha[..., None] * ref
+    num = np.einsum("...n,...n->...", target, target)
+    err = target - est
+    den = np.einsum("...n,...n->...", err, err)
+    ratio = np.divide(num, den, out=np.full_like(num, _RATIO), where=den > 0)
+    ratio = np.where((num == 0) & (den == 0), 0.0, ratio)  # silent estimate: no target at all
+    return 10 * np.log10(np.clip(ratio, 1 / _RATIO, _RATIO))
+
+
+def si_sdr(estimate: np.ndarray, reference: np.ndarray, zero_mean: bool = False) -> float:
+    """SI-SDR of one estimate against one reference, in dB.
+
+    Parameters
+    ----------
+    estimate, reference : (n,) real arrays, n >= 1 (estimate first).
+    zero_mean : subtract each signal's mean first.
+
+    Returns
+    -------
+    SI-SDR in dB, clipped to [-100, 100].
+
+    Raises
+    ------
+    ConfigError
+        Shapes differ, are not 1-D, are empty, contain NaN/inf, or the reference is silent.
+    """
+    est, ref = _checked(estimate, reference, batch=False)
+    return float(si_sdr_batch(est, ref, zero_mean))

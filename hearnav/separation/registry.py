@@ -1,0 +1,131 @@
+"""The registry of separators.
+
+A separator is a callable ``separator(mixture, ctx) -> estimate`` taking a (2, n) binaural mixture (index 0 the
+left ear) and a :class:`~hearnav.separation.context.SeparationContext`, and returning an (n,) estimate of the
+target at the head centre. :func:`get_separator` returns it wrapped in a :class:`Separator`, which checks the
+input and the output (casting it to float32) and hides ``ctx.target_image`` from separators that are not
+privileged.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import re
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+
+from hearnav.errors import SeparatorError, unknown_name
+from hearnav.separation.context import SeparationContext
+
+SeparatorFn = Callable[[np.ndarray, SeparationContext], np.ndarray]
+_NAME = re.compile(r"^[a-z][a-z0-9_\-]*$")
+
+
+@dataclass(frozen=True)
+class Separator:
+    """A registered separator: its name, its function and whether it may read the true target image."""
+
+    name: str
+    fn: SeparatorFn
+    privileged: bool = False
+
+    def __call__(self, mixture: np.ndarray, ctx: SeparationContext) -> np.ndarray:
+        """Separate the target from a (2, n) mixture; returns an (n,) float32 estimate.
+
+        Raises
+        ------
+        SeparatorError
+            The mixture is not a finite (2, n) array, ``ctx`` is not a SeparationContext, or the separator
+            returned something other than a finite (n,) array.
+        """
+        mix = np.asarray(mixture)
+        if mix.ndim != 2 or mix.shape[0] != 2 or mix.shape[1] == 0 or not np.issubdtype(mix.dtype, np.number) \
+                or np.iscomplexobj(mix):
+            raise SeparatorError(f"separator {self.name!r} needs a real (2, n) mixture with n >= 1 "
+                                 f"(left ear, right ear), got shape {mix.shape} of {mix.dtype}")
+        if not np.all(np.isfinite(mix)):
+            raise SeparatorError(f"separator {self.name!r} needs a finite mixture; got "
+                                 f"{int(np.sum(~np.isfinite(mix)))} NaN or infinite samples")
+        if not isinstance(ctx, SeparationContext):
+            raise SeparatorError(f"separator {self.name!r} needs a SeparationContext, got {type(ctx).__name__}")
+        if not self.privileged and ctx.target_image is not None:
+            ctx = dataclasses.replace(ctx, target_image=None)
+        out = np.asarray(self.fn(mix, ctx))
+        n = mix.shape[1]
+        if out.shape != (n,) or not np.all(np.isfinite(out)):
+            raise SeparatorError(f"separator {self.name!r} must return a finite ({n},) estimate, got shape "
+                                 f"{out.shape}{'' if np.all(np.isfinite(out)) else ' with NaN or inf'}")
+        return out.astype(np.float32, copy=False)
+
+
+_REGISTRY: dict[str, Separator] = {}
+
+
+def register_separator(name: str, fn: SeparatorFn | None = None, *, privileged: bool | None = None):
+    """Add a separator; usable as ``register_separator("name", fn)`` or as a decorator ``@register_separator("name")``.
+
+    Parameters
+    ----------
+    name : lower-case letter, then lower-case letters, digits, ``_`` or ``-``.
+    fn : ``fn(mixture (2, n), ctx) -> (n,)``.
+    privileged : whether the separator reads ``ctx.target_image`` (an oracle); defaults to the function's
+        own ``privileged`` attribute, else False.
+
+    Returns
+    -------
+    The registered :class:`Separator` (or, as a decorator, ``fn`` unchanged).
+
+    Raises
+    ------
+    SeparatorError
+        Bad or already registered name, or ``fn`` not callable.
+    """
+    if fn is None:
+        def decorator(f: SeparatorFn) -> SeparatorFn:
+            register_separator(name, f, privileged=privileged)
+            return f
+        return decorator
+    if not isinstance(name, str) or not _NAME.match(name):
+        raise SeparatorError(f"separator name must be a lower-case letter then letters, digits, '_' or '-', "
+                             f"got {name!r}")
+    if name in _REGISTRY:
+        raise SeparatorError(f"separator {name!r} is already registered; pick another name")
+    if not callable(fn):
+        raise SeparatorError(f"separator {name!r} must be callable, got {type(fn).__name__}")
+    flag = bool(getattr(fn, "privileged", False)) if privileged is None else bool(privileged)
+    sep = Separator(name, fn, flag)
+    _REGISTRY[name] = sep
+    return sep
+
+
+def get_separator(name: str) -> Separator:
+    """The separator registered as ``name``.
+
+    Raises
+    ------
+    SeparatorError
+        Unknown name (the message lists the close matches or the valid names).
+    """
+    sep = _REGISTRY.get(name) if isinstance(name, str) else None
+    if sep is None:
+        raise SeparatorError(unknown_name("separator", str(name), _REGISTRY))
+    return sep
+
+
+def separator_names() -> list[str]:
+    """Registered separator names, sorted."""
+    return sorted(_REGISTRY)
+
+
+def unregister_separator(name: str) -> None:
+    """Remove a registered separator (for tests and plug-ins that replace one).
+
+    Raises
+    ------
+    SeparatorError
+        Unknown name.
+    """
+    get_separator(name)
+    del _REGISTRY[name]

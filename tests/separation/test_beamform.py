@@ -1,0 +1,75 @@
+"""Delay-and-sum and MVDR weights (Capon 1969) over frequency bins."""
+
+import numpy as np
+import pytest
+
+from hearnav.separation.beamform import apply_weights, das_weights, mvdr_weights, spatial_covariance
+
+
+def _random_case(seed, n_bins=64):
+    rng = np.random.default_rng(seed)
+    a = rng.standard_normal((n_bins, 2, 3)) + 1j * rng.standard_normal((n_bins, 2, 3))
+    cov = a @ np.conj(np.swapaxes(a, -1, -2))  # Hermitian positive definite (rank 2 almost surely)
+    d = rng.standard_normal((n_bins, 2)) + 1j * rng.standard_normal((n_bins, 2))
+    return cov, d
+
+
+@pytest.mark.parametrize("seed", range(5))
+def test_mvdr_is_distortionless(seed):
+    # Capon 1969: the MVDR weights satisfy the constraint w^H d = 1 in every bin.
+    cov, d = _random_case(seed)
+    w = mvdr_weights(cov, d)
+    np.testing.assert_allclose(np.sum(np.conj(w) * d, axis=-1), 1.0, atol=1e-10)
+
+
+def test_das_is_distortionless():
+    # Delay-and-sum w = d / (d^H d) (Van Trees 2002) satisfies w^H d = 1.
+    _, d = _random_case(7)
+    np.testing.assert_allclose(np.sum(np.conj(das_weights(d)) * d, axis=-1), 1.0, atol=1e-12)
+
+
+def test_mvdr_with_identity_covariance_is_delay_and_sum():
+    # Textbook identity (Capon 1969 / Van Trees 2002): with R = I (white noise), R^-1 d / (d^H R^-1 d) = d / (d^H d).
+    _, d = _random_case(8)
+    cov = np.broadcast_to(np.eye(2, dtype=complex), (d.shape[0], 2, 2))
+    np.testing.assert_allclose(mvdr_weights(cov, d), das_weights(d), atol=1e-12)
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_mvdr_minimises_output_power(seed):
+    # Capon 1969: among all w with w^H d = 1, the MVDR weights give the least output power w^H R w.
+    cov, d = _random_case(seed, n_bins=16)
+    w = mvdr_weights(cov, d, loading=0.0)
+    power = np.einsum("fi,fij,fj->f", np.conj(w), cov, w).real
+    np.testing.assert_allclose(power, 1 / np.einsum("fi,fij,fj->f", np.conj(d), np.linalg.inv(cov), d).real,
+                               rtol=1e-9)  # Capon's minimum power 1 / (d^H R^-1 d)
+    rng = np.random.default_rng(seed + 10)
+    for _ in range(5):  # any other distortionless w: w_mvdr + v with v^H d = 0
+        v = rng.standard_normal(d.shape) + 1j * rng.standard_normal(d.shape)
+        v -= (np.sum(np.conj(d) * v, axis=-1) / np.sum(np.abs(d) ** 2, axis=-1))[:, None] * d
+        other = w + v
+        assert np.all(np.einsum("fi,fij,fj->f", np.conj(other), cov, other).real >= power - 1e-9)
+
+
+def test_mvdr_nulls_a_strong_interferer():
+    # Textbook (Van Trees 2002, ch. 6): with R = s d_i d_i^H + sigma^2 I and s >> sigma^2 the MVDR response
+    # towards the interferer d_i tends to zero; here below -40 dB.
+    rng = np.random.default_rng(1)
+    d = rng.standard_normal((8, 2)) + 1j * rng.standard_normal((8, 2))
+    di = rng.standard_normal((8, 2)) + 1j * rng.standard_normal((8, 2))
+    cov = 1e6 * np.einsum("fi,fj->fij", di, np.conj(di)) + np.eye(2)
+    w = mvdr_weights(cov, d, loading=0.0)
+    assert np.all(20 * np.log10(np.abs(np.sum(np.conj(w) * di, axis=-1))) < -40)
+
+
+def test_spatial_covariance_and_apply_weights():
+    # Definitions: R[f] = mean_t X X^H; Y = w^H X. Checked against explicit loops.
+    rng = np.random.default_rng(2)
+    spec = rng.standard_normal((2, 5, 7)) + 1j * rng.standard_normal((2, 5, 7))
+    cov = spatial_covariance(spec)
+    for f in range(5):
+        np.testing.assert_allclose(cov[f], spec[:, f] @ np.conj(spec[:, f]).T / 7, atol=1e-12)
+    w = rng.standard_normal((5, 2)) + 1j * rng.standard_normal((5, 2))
+    y = apply_weights(w, spec)
+    for f in range(5):
+        np.testing.assert_allclose(y[f], np.conj(w[f]) @ spec[:, f], atol=1e-12)
