@@ -1,0 +1,105 @@
+"""The environment's arguments: a validated schema, from keyword arguments or a YAML file in configs/env/."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Literal
+
+import yaml
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
+
+from hearnav.acoustics.settings import AcousticSettings
+from hearnav.errors import ConfigError, did_you_mean
+
+#: Folder of the bundled environment configurations.
+CONFIG_DIR = Path(__file__).resolve().parents[2] / "configs" / "env"
+
+
+class EnvConfig(BaseModel):
+    """Every argument of :class:`hearnav.env.HearNavEnv` (see its docstring for the meaning of each)."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+    scenes: str | list[str] = Field(default="train", description="a split, 'procedural', or scene names")
+    procedural_pool: int = Field(default=16, ge=1, le=100000, description="generated scenes gen-0..gen-(N-1)")
+    target_category: str | None = Field(default=None, description="category of the target sound (None: any)")
+    distractors: tuple[int, int] = Field(default=(1, 3), description="min and max number of distractors")
+    sound_pool: Literal["seen", "unseen"] = "seen"
+    distractor_level_db: tuple[float, float] = Field(default=(-6.0, 6.0),
+                                                     description="distractor level relative to the target, dB")
+    min_start_distance: float = Field(default=2.0, ge=0.0, le=50.0, description="metres from the target spot")
+    hop_s: float = Field(default=0.5, ge=0.05, le=4.0, description="seconds of sound per step")
+    budget: int = Field(default=20, ge=1, le=1000, description="steps before truncation")
+    separator: str = Field(default="mvdr", description="registered separator name")
+    reward_clip: float | None = Field(default=None, gt=0.0, description="clip the reward to +/- this many dB")
+    n_bands: int = Field(default=16, ge=4, le=64, description="frequency bands of the audio features")
+    n_segments: int = Field(default=4, ge=1, le=32, description="time segments of the audio features")
+    patch_size: int = Field(default=9, ge=3, le=41, description="cells per side of the egocentric map (odd)")
+    fov_deg: float = Field(default=120.0, gt=0.0, le=360.0, description="field of view for visible sources")
+    acoustics: AcousticSettings = Field(default_factory=AcousticSettings)
+
+    @field_validator("patch_size")
+    @classmethod
+    def _odd(cls, value: int) -> int:
+        if value % 2 == 0:
+            raise ValueError(f"patch_size must be odd so the listener sits in the centre (got {value})")
+        return value
+
+    @model_validator(mode="after")
+    def _ranges(self) -> EnvConfig:
+        lo, hi = self.distractors
+        if not 1 <= lo <= hi <= 8:
+            raise ValueError(f"distractors must be [min, max] with 1 <= min <= max <= 8 (got [{lo}, {hi}])")
+        a, b = self.distractor_level_db
+        if not -40.0 <= a <= b <= 40.0:
+            raise ValueError(f"distractor_level_db must be [low, high] within [-40, 40] dB (got [{a}, {b}])")
+        return self
+
+
+def _problem(err: dict) -> str:
+    loc = ".".join(str(x) for x in err["loc"])
+    if err["type"] == "extra_forbidden":
+        owner = AcousticSettings if err["loc"][0] == "acoustics" and len(err["loc"]) > 1 else EnvConfig
+        name = str(err["loc"][-1])
+        return f"unknown option {loc!r} (expected one of {', '.join(owner.model_fields)}); " \
+               f"{did_you_mean(name, owner.model_fields)}"
+    got = repr(err.get("input"))[:60]
+    msg = err["msg"].replace("Value error, ", "").replace("Input should be ", "expected ")
+    return f"option {loc!r}: {msg} (got {got})"
+
+
+def make_config(config: str | Path | EnvConfig | dict | None = None, **overrides) -> EnvConfig:
+    """An EnvConfig from a YAML path or bundled name (configs/env/NAME.yaml), a dict, or keywords on top."""
+    if isinstance(config, EnvConfig):
+        base = config.model_dump()
+    elif config is None:
+        base = {}
+    elif isinstance(config, dict):
+        base = dict(config)
+    else:
+        base = load_yaml(config)
+    base.update(overrides)
+    try:
+        return EnvConfig.model_validate(base)
+    except ValidationError as exc:
+        raise ConfigError("; ".join(_problem(e) for e in exc.errors(include_url=False))) from None
+
+
+def load_yaml(config: str | Path) -> dict:
+    """The mapping in an environment YAML file, found by path or by bundled name."""
+    path = Path(config)
+    if not path.suffix and not path.exists():
+        path = CONFIG_DIR / f"{config}.yaml"
+    if not path.is_file():
+        names = sorted(p.stem for p in CONFIG_DIR.glob("*.yaml"))
+        raise ConfigError(f"environment config {str(config)!r} not found (expected a YAML file or one of "
+                          f"{', '.join(names)}); {did_you_mean(str(config), names)}")
+    try:
+        data = yaml.safe_load(path.read_text(encoding="utf-8"))
+    except yaml.YAMLError as exc:
+        raise ConfigError(f"{path}: not valid YAML (expected a mapping of options, got {str(exc).splitlines()[0]})") from None
+    if data is None:
+        return {}
+    if not isinstance(data, dict):
+        raise ConfigError(f"{path}: expected a mapping of options, got {type(data).__name__}")
+    return data

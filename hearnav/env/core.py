@@ -1,0 +1,291 @@
+"""The listening environment."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import gymnasium as gym
+import numpy as np
+from gymnasium import spaces
+
+from hearnav.env.config import EnvConfig, make_config
+from hearnav.env.episode import EpisodePlan, check_category, draw_episode, render_signals
+from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor
+from hearnav.env.patch import egocentric_patch, visible_sources
+from hearnav.env.worlds import World, get_world, resolve_scenes
+from hearnav.errors import ConfigError, HearnavError
+from hearnav.listening import ListeningSession, Source, Window
+from hearnav.separation import SeparationContext, get_separator, si_sdr
+
+FORWARD, TURN_LEFT, TURN_RIGHT, STAY = 0, 1, 2, 3
+ACTION_NAMES = ("forward", "turn-left", "turn-right", "stay")
+MAX_DISTANCE = 50.0
+#: Windows the start may be delayed by while the target is silent.
+MAX_LEAD_IN = 8
+#: A reference with less energy than this is silent: no SI-SDR exists for its window.
+SILENT_ENERGY = 1e-12
+
+
+class InvalidActionError(HearnavError, ValueError):
+    """An action outside the action space."""
+
+
+class HearNavEnv(gym.Env):
+    """A two-eared listener moves over a floorplan so that a separator can pull out one target sound.
+
+    Each episode places a target sound and 1-3 distractors at named spots of a scene; the sources play
+    continuously. Every step the listener acts, then hears the next ``hop_s`` seconds at its new pose. The
+    built-in separator (``separator``, steered at the target spot's direction) extracts the target from the
+    binaural mixture, and the reward is the change of its SI-SDR (Le Roux et al., 2019) against the target
+    reference (the target's dry signal delayed and scaled by its earliest path at the head centre).
+
+    ## Action space
+    ``Discrete(4)``:
+
+    | action | meaning |
+    |---|---|
+    | 0 | forward one cell along the heading (a move into a wall keeps the pose; info["collided"] is True) |
+    | 1 | turn left by one heading step (90 degrees with 4 headings, 45 with 8) |
+    | 2 | turn right by one heading step |
+    | 3 | stay |
+
+    ## Observation space
+    ``Dict`` of float32 ``Box`` es with finite bounds (S = n_segments time segments, B = n_bands log-spaced
+    bands from 100 Hz to fs/2, P = patch_size):
+
+    | key | shape | content | bounds |
+    |---|---|---|---|
+    | binaural | (5, S, B) | left level dB, right level dB, ILD dB, cos IPD, sin IPD of the current window | [-120, 40], [-60, 60], [-1, 1] |
+    | estimate | (1, S, B) | level dB of the separator's current estimate | [-120, 40] |
+    | map | (2, P, P) | egocentric map, row 0 ahead, column 0 left: 1 = not navigable; 1 = a source in line of sight inside the field of view ``fov_deg`` | [0, 1] |
+    | target | (3,) | distance to the target spot (m), sin and cos of its bearing relative to the heading (counter-clockwise) | [0, 50], [-1, 1] |
+    | budget | (1,) | fraction of the step budget left | [0, 1] |
+
+    ``hearnav.env.FlatObservation`` flattens the dictionary into one vector.
+
+    ## Reward
+    ``si_sdr_after - si_sdr_before`` in dB: the separator's SI-SDR on the window just heard minus its SI-SDR on
+    the previous window (the first window is heard at reset). The rewards of an episode sum to the final minus
+    the starting SI-SDR. ``reward_clip`` clips each reward to +/- that many dB.
+
+    ## Episode end
+    Never terminated; truncated after ``budget`` steps.
+
+    ## Info
+    ``si_sdr_db`` (separator), ``mixture_si_sdr_db`` (the unprocessed ear nearer the target: the input
+    reference), ``pose`` (cell, x, y, heading index and degrees), ``collided``, ``target_active``, ``step``,
+    ``scene`` and ``sources`` (role, spot, category, pool, voice, take, level). No wall-clock values.
+    A window in which the target is silent (an alarm's pause) has no SI-SDR: ``target_active`` is False and
+    both scores keep their previous values, so the reward is 0. An episode whose target starts in a pause
+    begins with the first window in which it sounds (at most 8 windows later).
+
+    ## Privileged access
+    ``env.unwrapped.privileged`` (:class:`hearnav.env.privileged.PrivilegedView`) answers what no agent
+    observes, for reference policies and the oracle bound: for example the separator's score at any pose for the
+    window the next step will hear. It is not part of the observation.
+
+    ## Arguments
+    ``HearNavEnv(config=None, render_mode=None, **options)``: ``config`` is a YAML path, a bundled name in
+    configs/env/ (e.g. "default") or a dict; keyword options override it. Options (see
+    :class:`hearnav.env.config.EnvConfig`): ``scenes`` (a split, "procedural", or a list of names),
+    ``procedural_pool``, ``target_category``, ``distractors`` ([min, max]), ``sound_pool`` ("seen" or
+    "unseen"), ``distractor_level_db`` ([low, high] relative to the target), ``min_start_distance`` (m),
+    ``hop_s``, ``budget``, ``separator``, ``reward_clip``, ``n_bands``, ``n_segments``, ``patch_size``,
+    ``fov_deg`` and ``acoustics`` (:class:`hearnav.acoustics.AcousticSettings` fields). Unknown options and
+    out-of-range values raise :class:`hearnav.errors.ConfigError`. ``render_mode="rgb_array"`` draws the plan,
+    the target (red) and distractors (grey), the listener's pose and its path.
+    """
+
+    metadata = {"render_modes": ["rgb_array"], "render_fps": 2}
+
+    def __init__(self, config: Any = None, render_mode: str | None = None, **options: Any):
+        self.config: EnvConfig = make_config(config, **options)
+        if render_mode not in (None, "rgb_array"):
+            raise ConfigError(f"render_mode must be None or 'rgb_array' (got {render_mode!r})")
+        self.render_mode = render_mode
+        cfg = self.config
+        check_category(cfg.target_category)
+        self.separator = get_separator(cfg.separator)
+        self._ear = get_separator("ear")
+        self.scene_names = resolve_scenes(cfg.scenes, cfg.procedural_pool)
+        self.fs = cfg.acoustics.fs
+        self.window = int(round(cfg.hop_s * self.fs))
+        self.features = FeatureExtractor(self.fs, self.window, cfg.n_bands, cfg.n_segments)
+        seg, bands = self.features.shape
+        lo, hi = LEVEL_DB
+        level = lambda n: spaces.Box(lo, hi, (n, seg, bands), np.float32)  # noqa: E731
+        binaural_lo = np.array([lo, lo, ILD_DB[0], -1, -1], np.float32)[:, None, None] * np.ones((1, seg, bands), np.float32)
+        binaural_hi = np.array([hi, hi, ILD_DB[1], 1, 1], np.float32)[:, None, None] * np.ones((1, seg, bands), np.float32)
+        self.observation_space = spaces.Dict({
+            "binaural": spaces.Box(binaural_lo, binaural_hi, dtype=np.float32),
+            "estimate": level(1),
+            "map": spaces.Box(0.0, 1.0, (2, cfg.patch_size, cfg.patch_size), np.float32),
+            "target": spaces.Box(np.array([0, -1, -1], np.float32), np.array([MAX_DISTANCE, 1, 1], np.float32),
+                                 dtype=np.float32),
+            "budget": spaces.Box(0.0, 1.0, (1,), np.float32),
+        })
+        self.action_space = spaces.Discrete(4)
+        self.world: World | None = None
+        self.plan: EpisodePlan | None = None
+        self._session: ListeningSession | None = None
+        self._path: list[tuple[int, int]] = []
+
+    # -- episode -----------------------------------------------------------------------------------------------
+
+    def reset(self, *, seed: int | None = None, options: dict | None = None):
+        super().reset(seed=seed)
+        rng = self.np_random
+        name = self.scene_names[int(rng.integers(len(self.scene_names)))]
+        self.world = get_world(name, self.config.acoustics, self.window)
+        self.plan = draw_episode(rng, self.config, name, self.world.scene, self.world.grid)
+        return self._begin()
+
+    def start(self, plan: EpisodePlan):
+        """Start a given episode plan (as the benchmark does) instead of drawing one; returns (obs, info)."""
+        self.world = get_world(plan.scene, self.config.acoustics, self.window)
+        self.plan = plan
+        return self._begin()
+
+    def _begin(self):
+        world, plan = self.world, self.plan
+        n = world.listening.signal_length(self.config.budget + 1 + MAX_LEAD_IN)
+        signals = render_signals(plan, n, self.fs)
+        sources = [Source(p.spot, x) for p, x in zip(plan.sources, signals)]
+        self._session = ListeningSession(world.listening, sources, target=0)
+        self.cell, self.heading = plan.start_cell, plan.start_heading
+        self.steps = 0
+        self._path = [(self.cell, self.heading)]
+        self.si_sdr_db = None
+        for _ in range(MAX_LEAD_IN + 1):  # a target that starts in a pause: listen on until it sounds
+            self._hear(collided=False)
+            if self.target_active:
+                break
+        if self.si_sdr_db is None:
+            raise ConfigError(f"the target ({plan.sources[0].category}) is silent for {MAX_LEAD_IN + 1} windows "
+                              f"(expected a sounding target); use longer hop_s or another category")
+        return self._obs(), self._info()
+
+    def step(self, action):
+        if self._session is None:
+            raise ConfigError("call reset() before step() (expected a started episode, got none)")
+        if isinstance(action, (bool, np.bool_)) or not isinstance(action, (int, np.integer)) or \
+                not 0 <= int(action) < 4:
+            if isinstance(action, np.ndarray) and action.shape in ((), (1,)) and np.issubdtype(action.dtype, np.integer):
+                return self.step(int(action.reshape(-1)[0]))
+            raise InvalidActionError(f"action must be an integer in [0, 3] ({', '.join(ACTION_NAMES)}), "
+                                     f"got {action!r}")
+        before = self.si_sdr_db
+        collided = self._act(int(action))
+        self.steps += 1
+        self._path.append((self.cell, self.heading))
+        self._hear(collided)
+        reward = self.si_sdr_db - before
+        if self.config.reward_clip is not None:
+            reward = float(np.clip(reward, -self.config.reward_clip, self.config.reward_clip))
+        truncated = self.steps >= self.config.budget
+        return self._obs(), float(reward), False, bool(truncated), self._info()
+
+    def _act(self, action: int) -> bool:
+        grid = self.world.grid
+        if action == FORWARD:
+            nxt = grid.forward(self.cell, self.heading)
+            if nxt < 0:
+                return True
+            self.cell = nxt
+        elif action == TURN_LEFT:
+            self.heading = (self.heading + 1) % grid.n_headings
+        elif action == TURN_RIGHT:
+            self.heading = (self.heading - 1) % grid.n_headings
+        return False
+
+    def _hear(self, collided: bool) -> None:
+        """Listen to the next window; a window in which the target is silent keeps the previous scores."""
+        self._window = self._session.listen(self.cell, self.heading)
+        self.collided = collided
+        estimate, score = self.score_window(self._window, self.cell, self.heading)
+        self._estimate = estimate
+        self.target_active = score is not None
+        if score is not None:
+            self.si_sdr_db = score
+            ear = self._ear(self._window.mixture, self.context(self.cell, self.heading))
+            self.mixture_si_sdr_db = si_sdr(ear, self._window.reference)
+
+    # -- separation ----------------------------------------------------------------------------------------------
+
+    def target_bearing(self, cell: int, heading: int) -> tuple[float, float]:
+        """Distance (m) and bearing (radians, counter-clockwise from the heading) of the target spot."""
+        grid = self.world.grid
+        d = self.world.scene.spots[self.plan.sources[0].spot].position[:2] - grid.centers[cell]
+        bearing = float(np.arctan2(d[1], d[0]) - grid.heading_angle(heading))
+        return float(np.hypot(*d)), float((bearing + np.pi) % (2 * np.pi) - np.pi)
+
+    def context(self, cell: int, heading: int, window: Window | None = None) -> SeparationContext:
+        """The separator's side information at a pose (the true target image only for privileged separators)."""
+        _, bearing = self.target_bearing(cell, heading)
+        image = window.target_image if (window is not None and self.separator.privileged) else None
+        return SeparationContext(fs=self.fs, azimuth=bearing, target_image=image,
+                                 radius=self.config.acoustics.head_radius, c=self.config.acoustics.speed_of_sound)
+
+    def score_window(self, window: Window, cell: int, heading: int) -> tuple[np.ndarray, float | None]:
+        """The separator's estimate of the target in a window heard at a pose, and its SI-SDR in dB.
+
+        The score is None when the target is silent in the window (its reference has no energy).
+        """
+        estimate = self.separator(window.mixture, self.context(cell, heading, window))
+        if float(np.dot(window.reference, window.reference)) <= SILENT_ENERGY:
+            return estimate, None
+        return estimate, si_sdr(estimate, window.reference)
+
+    # -- observation -----------------------------------------------------------------------------------------
+
+    def _obs(self) -> dict[str, np.ndarray]:
+        world, cfg = self.world, self.config
+        grid, scene = world.grid, world.scene
+        xy = grid.centers[self.cell]
+        spots = np.array([scene.spots[p.spot].position[:2] for p in self.plan.sources])
+        los = world.responses.line_of_sight[self.cell, [p.spot for p in self.plan.sources]]
+        seen = visible_sources(xy, grid.heading_angle(self.heading), spots, los, np.deg2rad(cfg.fov_deg))
+        dist, bearing = self.target_bearing(self.cell, self.heading)
+        return {
+            "binaural": self.features.binaural(self._window.mixture),
+            "estimate": self.features.mono(self._estimate),
+            "map": egocentric_patch(grid, self.cell, self.heading, cfg.patch_size, spots[seen]),
+            "target": np.array([min(dist, MAX_DISTANCE), np.sin(bearing), np.cos(bearing)], np.float32),
+            "budget": np.array([1.0 - self.steps / cfg.budget], np.float32),
+        }
+
+    def _info(self) -> dict[str, Any]:
+        grid = self.world.grid
+        x, y = grid.centers[self.cell]
+        return {
+            "si_sdr_db": float(self.si_sdr_db),
+            "mixture_si_sdr_db": float(self.mixture_si_sdr_db),
+            "pose": {"cell": int(self.cell), "x": float(x), "y": float(y), "heading": int(self.heading),
+                     "heading_deg": float(np.rad2deg(grid.heading_angle(self.heading)))},
+            "collided": bool(self.collided),
+            "target_active": bool(self.target_active),
+            "step": int(self.steps),
+            "scene": self.plan.scene,
+            "sources": [p.info(self.world.scene) for p in self.plan.sources],
+        }
+
+    # -- privileged access and rendering ---------------------------------------------------------------------
+
+    @property
+    def privileged(self):
+        """Privileged answers for reference policies (not part of the observation)."""
+        from hearnav.env.privileged import PrivilegedView
+
+        return PrivilegedView(self)
+
+    @property
+    def path(self) -> list[tuple[int, int]]:
+        """(cell, heading) poses visited this episode, the start included."""
+        return list(self._path)
+
+    def render(self):
+        if self.render_mode != "rgb_array" or self.world is None:
+            return None
+        from hearnav.env.render import draw_frame
+
+        return draw_frame(self)

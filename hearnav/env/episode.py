@@ -1,0 +1,98 @@
+"""Drawing an episode: scene, target and distractor spots, their sounds and levels, the start pose."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from hearnav import sounds
+from hearnav.env.config import EnvConfig
+from hearnav.errors import ConfigError, unknown_name
+from hearnav.scene.grid import Grid
+from hearnav.scene.model import Scene
+
+
+@dataclass(frozen=True)
+class SourcePlan:
+    """One source of an episode: where it stands and what it plays."""
+
+    spot: int
+    category: str
+    pool: str
+    voice: int
+    take: int
+    level_db: float
+    role: str  # "target" or "distractor"
+
+    def info(self, scene: Scene) -> dict:
+        """A plain dict for info (no arrays)."""
+        return {"role": self.role, "spot": scene.spots[self.spot].name, "category": self.category,
+                "pool": self.pool, "voice": self.voice, "take": self.take, "level_db": round(self.level_db, 6)}
+
+
+@dataclass(frozen=True)
+class EpisodePlan:
+    """Everything random about an episode, drawn before it starts."""
+
+    scene: str
+    sources: tuple[SourcePlan, ...]  # the target first
+    start_cell: int
+    start_heading: int
+
+
+def allowed_categories(scene: Scene, spot: int) -> tuple[str, ...]:
+    """Registered categories a spot accepts (all of them when the scene does not restrict it)."""
+    spec = scene.spec.spots[spot].categories
+    registered = sounds.categories()
+    return tuple(c for c in registered if spec is None or c in spec)
+
+
+def check_category(category: str | None) -> None:
+    """Raise ConfigError for an unregistered target category."""
+    if category is not None and category not in sounds.categories():
+        raise ConfigError(f"option 'target_category': {unknown_name('sound category', category, sounds.categories())}")
+
+
+def _start(grid: Grid, target_xy: np.ndarray, min_dist: float, rng: np.random.Generator) -> int:
+    dist = np.linalg.norm(grid.centers - target_xy, axis=1)
+    for pool in (grid.start_cells, np.arange(grid.n_cells)):
+        far = pool[dist[pool] >= min_dist]
+        if far.size:
+            return int(rng.choice(far))
+    return int(np.argmax(dist))
+
+
+def draw_episode(rng: np.random.Generator, cfg: EnvConfig, scene_name: str, scene: Scene, grid: Grid) -> EpisodePlan:
+    """Draw the random parts of an episode in a fixed order from ``rng``."""
+    n_spots = len(scene.spots)
+    targets = [s for s in range(n_spots)
+               if cfg.target_category is None or cfg.target_category in allowed_categories(scene, s)]
+    if not targets:
+        raise ConfigError(f"scene {scene_name!r} has no spot that accepts target category {cfg.target_category!r} "
+                          f"(expected at least one); choose other scenes or another category")
+    target = int(rng.choice(targets))
+    lo, hi = cfg.distractors
+    n_dist = int(rng.integers(lo, hi + 1))
+    others = [s for s in range(n_spots) if s != target]
+    chosen = [int(s) for s in rng.permutation(others)[: min(n_dist, len(others))]]
+    plans = []
+    for role, spot in [("target", target)] + [("distractor", s) for s in chosen]:
+        cats = allowed_categories(scene, spot)
+        category = cfg.target_category if role == "target" and cfg.target_category else str(rng.choice(cats))
+        voice = int(rng.integers(sounds.pool_size(category, cfg.sound_pool)))
+        take = int(rng.integers(2**31 - 1))
+        level = 0.0 if role == "target" else float(rng.uniform(*cfg.distractor_level_db))
+        plans.append(SourcePlan(spot, category, cfg.sound_pool, voice, take, level, role))
+    start = _start(grid, scene.spots[target].position[:2], cfg.min_start_distance, rng)
+    heading = int(rng.integers(grid.n_headings))
+    return EpisodePlan(scene_name, tuple(plans), start, heading)
+
+
+def render_signals(plan: EpisodePlan, n_samples: int, fs: int) -> list[np.ndarray]:
+    """Dry signals of every source, level-adjusted, ``n_samples`` long."""
+    out = []
+    for src in plan.sources:
+        x = sounds.generate(src.category, src.pool, src.voice, src.take, n_samples / fs, fs)
+        out.append((x * 10 ** (src.level_db / 20)).astype(np.float32))
+    return out

@@ -1,0 +1,62 @@
+"""Privileged answers about an episode, for reference policies and the oracle bound; never observed by agents."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from hearnav.env import core
+
+
+class PrivilegedView:
+    """What the environment knows and the agent does not.
+
+    Every answer is marked privileged: a policy that uses it is a reference, not an agent.
+    """
+
+    privileged = True
+
+    def __init__(self, env: core.HearNavEnv):
+        self._env = env
+
+    @property
+    def grid(self):
+        """The scene's navigable grid."""
+        return self._env.world.grid
+
+    @property
+    def pose(self) -> tuple[int, int]:
+        """The listener's (cell, heading)."""
+        return self._env.cell, self._env.heading
+
+    @property
+    def target_xy(self) -> np.ndarray:
+        """(2,) position of the target spot in metres."""
+        env = self._env
+        return env.world.scene.spots[env.plan.sources[0].spot].position[:2].copy()
+
+    @property
+    def steps_left(self) -> int:
+        """Steps left in the budget."""
+        return self._env.config.budget - self._env.steps
+
+    def next_pose(self, cell: int, heading: int, action: int) -> tuple[int, int]:
+        """The pose an action leads to (a blocked forward move keeps the pose)."""
+        grid = self.grid
+        if action == core.FORWARD:
+            nxt = grid.forward(cell, heading)
+            return (cell if nxt < 0 else nxt), heading
+        if action == core.TURN_LEFT:
+            return cell, (heading + 1) % grid.n_headings
+        if action == core.TURN_RIGHT:
+            return cell, (heading - 1) % grid.n_headings
+        return cell, heading
+
+    def score(self, cell: int, heading: int) -> float:
+        """The separator's SI-SDR (dB) at a pose for the window the next step will hear, without moving."""
+        env = self._env
+        window = env._session.peek(cell, heading)
+        return env.score_window(window, cell, heading)[1]
+
+    def scores(self, poses: list[tuple[int, int]]) -> np.ndarray:
+        """:meth:`score` of several poses, (len(poses),)."""
+        return np.array([self.score(c, h) for c, h in poses])

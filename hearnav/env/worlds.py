@@ -1,0 +1,52 @@
+"""Scenes, grids and listening worlds the environment uses, built once per process and reused."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import lru_cache
+
+from hearnav.acoustics import AcousticSettings, Responses, load_or_build
+from hearnav.errors import ConfigError
+from hearnav.listening import ListeningWorld
+from hearnav.scene.grid import Grid, build_grid
+from hearnav.scene.library import load_named, scene_names
+from hearnav.scene.model import Scene
+
+SPLITS = ("train", "val", "test")
+
+
+@dataclass(frozen=True)
+class World:
+    """A scene with its grid, responses and mixing engine."""
+
+    scene: Scene
+    grid: Grid
+    responses: Responses
+    listening: ListeningWorld
+
+
+@lru_cache(maxsize=32)
+def get_world(name: str, settings: AcousticSettings, window: int) -> World:
+    """The world of a named scene (built into the response cache on first use)."""
+    scene = load_named(name)
+    grid = build_grid(scene, settings.n_headings)
+    responses = load_or_build(scene, settings, grid)
+    return World(scene, grid, responses, ListeningWorld(responses, window))
+
+
+def resolve_scenes(scenes: str | list[str], procedural_pool: int) -> tuple[str, ...]:
+    """Scene names from a split, 'procedural' (gen-0 .. gen-(pool-1)), or a list of names (each checked)."""
+    if isinstance(scenes, str):
+        if scenes in SPLITS:
+            names = scene_names(scenes)
+            if not names:
+                raise ConfigError(f"option 'scenes': split {scenes!r} has no scenes (expected at least one)")
+            return tuple(names)
+        if scenes == "procedural":
+            return tuple(f"gen-{k}" for k in range(procedural_pool))
+        scenes = [scenes]
+    if not scenes:
+        raise ConfigError("option 'scenes': expected a split, 'procedural' or a non-empty list of names, got []")
+    for name in scenes:
+        load_named(name)  # raises SceneError listing the valid names
+    return tuple(scenes)

@@ -1,0 +1,182 @@
+"""The environment against gymnasium's and stable-baselines3's checkers, its spec, and bad input."""
+
+import gymnasium as gym
+import numpy as np
+import pytest
+
+import hearnav
+from hearnav.env import ENV_ID, FlatObservation, InvalidActionError
+from hearnav.errors import ConfigError, SceneError, SeparatorError
+from tests.env.conftest import FAST_ACOUSTICS
+
+
+def _rollout(env, seed, n=6):
+    rng = np.random.default_rng(seed)
+    obs, info = env.reset(seed=seed)
+    out = [(obs, 0.0, info)]
+    for _ in range(n):
+        obs, r, term, trunc, info = env.step(int(rng.integers(4)))
+        out.append((obs, r, info))
+        if term or trunc:
+            break
+    return out
+
+
+def test_registered_on_import():
+    # gymnasium 1.x does not load entry points: importing hearnav registers the id (shared REFERENCES.md).
+    assert hearnav.ENV_ID == ENV_ID == "hearnav/HearNav-v0"
+    assert ENV_ID in gym.registry
+
+
+def test_gymnasium_env_checker(make_env):
+    from gymnasium.utils.env_checker import check_env
+
+    env = gym.make(ENV_ID, scenes=["env-test-room"], acoustics=FAST_ACOUSTICS, budget=6)
+    check_env(env.unwrapped, skip_render_check=True)
+
+
+def test_stable_baselines3_env_checker(make_env):
+    from stable_baselines3.common.env_checker import check_env
+
+    check_env(make_env(), warn=False)
+
+
+def test_types_and_spaces(make_env):
+    # SB3's checker wants a Python float reward and Python bool flags (shared REFERENCES.md).
+    env = make_env()
+    obs, info = env.reset(seed=0)
+    assert env.observation_space.contains(obs)
+    obs, r, term, trunc, info = env.step(3)
+    assert type(r) is float and type(term) is bool and type(trunc) is bool
+    assert env.observation_space.contains(obs)
+    for key, space in env.observation_space.spaces.items():
+        assert space.dtype == np.float32 and np.all(np.isfinite(space.low)) and np.all(np.isfinite(space.high)), key
+
+
+def test_same_seed_same_episode(make_env):
+    # Project rule: equal seeds give element-wise equal observations, rewards and infos.
+    a, b = _rollout(make_env(), 7), _rollout(make_env(), 7)
+    assert len(a) == len(b)
+    for (oa, ra, ia), (ob, rb, ib) in zip(a, b):
+        for key in oa:
+            np.testing.assert_array_equal(oa[key], ob[key])
+        assert ra == rb and ia == ib
+    c = _rollout(make_env(), 8)
+    assert c[0][2]["sources"] != a[0][2]["sources"] or c[0][2]["pose"] != a[0][2]["pose"]
+
+
+def test_rewards_sum_to_the_gain(make_env):
+    # Reward = SI-SDR after minus before, so an episode's rewards telescope to final minus start.
+    steps = _rollout(make_env(), 3)
+    total = sum(r for _, r, _ in steps)
+    assert total == pytest.approx(steps[-1][2]["si_sdr_db"] - steps[0][2]["si_sdr_db"], abs=1e-9)
+
+
+def test_reward_clip(make_env):
+    steps = _rollout(make_env(reward_clip=0.01), 3)
+    assert all(abs(r) <= 0.01 + 1e-12 for _, r, _ in steps)
+
+
+def test_budget_truncates(make_env):
+    env = make_env(budget=3)
+    env.reset(seed=0)
+    flags = [env.step(3)[2:4] for _ in range(3)]
+    assert flags == [(False, False), (False, False), (False, True)]
+
+
+def test_moves_turns_and_collisions(make_env):
+    env = make_env()
+    env.reset(seed=1)
+    grid = env.world.grid
+    cell, heading = env.cell, env.heading
+    env.step(1)
+    assert (env.cell, env.heading) == (cell, (heading + 1) % 4)
+    env.step(2)
+    env.step(2)
+    assert env.heading == (heading - 1) % 4
+    # walk forward until blocked: the pose then stays and info says collided
+    for _ in range(20):
+        before = env.cell
+        *_, info = env.step(0)
+        if info["collided"]:
+            assert env.cell == before and grid.forward(before, env.heading) == -1
+            break
+    else:
+        pytest.fail("never reached a wall")
+
+
+def test_info_contents(make_env):
+    env = make_env()
+    _, info = env.reset(seed=2)
+    assert set(info) == {"si_sdr_db", "mixture_si_sdr_db", "pose", "collided", "target_active", "step", "scene",
+                         "sources"}
+    assert info["sources"][0]["role"] == "target" and 2 <= len(info["sources"]) <= 4
+    assert not any("time" in key for key in info)
+
+
+def test_start_is_far_enough_from_the_target(make_env):
+    env = make_env(min_start_distance=2.0)
+    for seed in range(10):
+        obs, info = env.reset(seed=seed)
+        assert obs["target"][0] >= 2.0 - 1e-6
+
+
+def test_privileged_score_matches_the_next_window(make_env):
+    # Staying put, the next window is heard at the same pose, so the privileged look-ahead score equals it.
+    env = make_env()
+    env.reset(seed=4)
+    predicted = env.privileged.score(env.cell, env.heading)
+    *_, info = env.step(3)
+    assert info["si_sdr_db"] == pytest.approx(predicted, abs=1e-6)
+    assert env.privileged.privileged is True
+    assert "privileged" not in env.observation_space.spaces
+
+
+def test_flat_observation(make_env):
+    env = FlatObservation(make_env())
+    obs, _ = env.reset(seed=0)
+    assert obs.ndim == 1 and obs.dtype == np.float32 and env.observation_space.contains(obs)
+
+
+def test_render_rgb_array(make_env):
+    env = make_env(render_mode="rgb_array")
+    env.reset(seed=0)
+    env.step(0)
+    frame = env.render()
+    assert frame.ndim == 3 and frame.shape[2] == 3 and frame.dtype == np.uint8
+    red = (frame[..., 0] > 200) & (frame[..., 1] < 60) & (frame[..., 2] < 60)
+    assert red.sum() > 20  # the target is drawn in red
+
+
+def test_config_file_and_overrides(make_env):
+    env = make_env(config="default", budget=4)
+    assert env.config.budget == 4 and env.config.separator == "mvdr"
+
+
+@pytest.mark.parametrize("options, message", [
+    ({"budegt": 3}, r"unknown option 'budegt' .* did you mean 'budget'\?"),
+    ({"budget": 0}, r"option 'budget': expected greater than or equal to 1 \(got 0\)"),
+    ({"distractors": [3, 1]}, r"distractors must be \[min, max\] with 1 <= min <= max <= 8 \(got \[3, 1\]\)"),
+    ({"acoustics": {"fss": 8000}}, r"unknown option 'acoustics.fss' .* did you mean 'fs'\?"),
+    ({"patch_size": 8}, r"patch_size must be odd"),
+    ({"target_category": "talkr"}, r"unknown sound category 'talkr' .* did you mean 'talker'"),
+])
+def test_bad_options(make_env, options, message):
+    with pytest.raises(ConfigError, match=message):
+        make_env(**options)
+
+
+def test_unknown_separator_and_scene(make_env):
+    with pytest.raises(SeparatorError, match=r"unknown separator 'mvrd' .* did you mean 'mvdr'\?"):
+        make_env(separator="mvrd")
+    with pytest.raises(SceneError, match=r"unknown scene 'mapel-flat'"):
+        make_env(scenes=["mapel-flat"])
+
+
+@pytest.mark.parametrize("action", [4, -1, 1.5, "left", None])
+def test_invalid_action(make_env, action):
+    env = make_env()
+    env.reset(seed=0)
+    with pytest.raises(InvalidActionError, match=r"action must be an integer in \[0, 3\] \(forward, turn-left, "
+                                                   r"turn-right, stay\), got"):
+        env.step(action)
