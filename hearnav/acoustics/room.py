@@ -13,7 +13,7 @@ import pyroomacoustics as pra
 
 from hearnav.acoustics.settings import AcousticSettings
 from hearnav.scene.materials import BAND_CENTERS_HZ, Material
-from hearnav.scene.model import Scene, counter_clockwise
+from hearnav.scene.model import SOLID_GAP, Scene, counter_clockwise
 
 
 @dataclass(frozen=True)
@@ -69,9 +69,10 @@ def room_walls(scene: Scene) -> list:
     walls.append(_wall(floor, np.array([0.0, 0.0, -1.0]), scene.floor, "floor"))
     walls.append(_wall(ceiling, np.array([0.0, 0.0, 1.0]), scene.ceiling, "ceiling"))
     for ob in scene.obstacles:
-        # The bottom face lies on the floor and, for full-height obstacles, the top under the ceiling:
-        # no path can reach them, so they are left out rather than made coplanar with the room's faces.
-        walls += _prism(ob.polygon, 0.0, ob.height, ob.material, False, ob.name, caps=(False, not ob.full_height))
+        # Obstacles are closed solids, as pyroomacoustics needs (its inside test counts face crossings). They
+        # stand SOLID_GAP above the floor (and below the ceiling when full height) so that no face of the
+        # solid is coplanar with a face of the room.
+        walls += _prism(ob.polygon, SOLID_GAP, ob.height, ob.material, False, ob.name, caps=(True, True))
     return walls
 
 
