@@ -30,7 +30,7 @@ class EnvConfig(BaseModel):
     min_start_distance: float = Field(default=2.0, ge=0.0, le=50.0, description="metres from the target spot")
     hop_s: float = Field(default=0.5, ge=0.05, le=4.0, description="seconds of sound per step")
     budget: int = Field(default=20, ge=1, le=1000, description="steps before truncation")
-    separator: str = Field(default="mvdr", description="registered separator name")
+    separator: str = Field(default="delay-and-sum", description="registered separator name")
     reward_clip: float | None = Field(default=None, gt=0.0, description="clip the reward to +/- this many dB")
     n_bands: int = Field(default=16, ge=4, le=64, description="frequency bands of the audio features")
     n_segments: int = Field(default=4, ge=1, le=32, description="time segments of the audio features")

@@ -1,0 +1,54 @@
+"""The listening task against physical expectations: beamforming in free field, and line of sight."""
+
+import numpy as np
+import pytest
+import yaml
+
+from hearnav.env import HearNavEnv
+from hearnav.env.occlusion import check_scene
+from hearnav.env.worlds import get_world
+from hearnav.acoustics import AcousticSettings
+from hearnav.scene.library import clear_cache, scene_names
+from tests.conftest import shoebox_dict
+
+
+@pytest.fixture
+def anechoic_pair(scene_dir):
+    # A fully absorbing room (alpha = 1): the direct paths alone, a target and an interferer.
+    data = shoebox_dict(size=(8.0, 6.0, 3.0), absorption=1.0, spacing=0.5, name="anechoic-pair",
+                        spots=[{"name": "t", "position": [6.0, 2.0], "height": 1.5},
+                               {"name": "d", "position": [6.0, 4.5], "height": 1.5}])
+    (scene_dir / "anechoic-pair.yaml").write_text(yaml.safe_dump(data))
+    clear_cache()
+    return "anechoic-pair"
+
+
+def _mean_scores(scene, separator):
+    env = HearNavEnv(scenes=[scene], separator=separator, distractors=(1, 1), distractor_level_db=(0.0, 0.0),
+                     target_category="noise", acoustics={"ism_order": 1, "n_rays": 300, "max_response_s": 0.1})
+    rows = [env.reset(seed=seed)[1] for seed in range(6)]
+    return np.mean([r["si_sdr_db"] for r in rows]), np.mean([r["mixture_si_sdr_db"] for r in rows])
+
+
+@pytest.mark.parametrize("separator, margin", [("delay-and-sum", 10.0), ("mvdr", 20.0)])
+def test_steering_at_the_target_beats_the_mixture_in_free_field(anechoic_pair, separator, margin):
+    # Beamforming towards the target in an anechoic two-source scene (Capon 1969; delay-and-sum, textbook):
+    # SI-SDR rises above the unprocessed better ear's. Measured here: delay-and-sum +16.8 dB, MVDR +31.4 dB
+    # over the ear (-16.9 dB) with an equal-level interferer, 6 episodes.
+    est, mix = _mean_scores(anechoic_pair, separator)
+    assert est - mix > margin
+
+
+@pytest.mark.slow
+def test_stepping_into_line_of_sight_helps_in_most_hand_made_cases():
+    # Geometric acoustics (common practice): the direct path carries the target's least distorted copy, so
+    # moving from a cell where it is blocked to a neighbour where it is not raises the default separator's
+    # SI-SDR in most cases. Over every bundled scene with such moves (benchmarks/occlusion_check.py prints the
+    # fraction; measured 64 % of 158 moves, median gain +4.1 dB, with delay-and-sum).
+    settings = AcousticSettings()
+    rng = np.random.default_rng(2026)
+    results = []
+    for name in scene_names():
+        results += check_scene(get_world(name, settings, 8000), rng, "delay-and-sum")
+    assert len(results) >= 30
+    assert np.mean([r.gain_db > 0 for r in results]) > 0.5
