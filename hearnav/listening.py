@@ -40,7 +40,7 @@ class Window:
 
     start: int  # first sample, in emission time
     mixture: np.ndarray  # (2, n)
-    target_image: np.ndarray  # (2, n) the target's image at the two ears
+    target_image: np.ndarray | None  # (2, n) the target's image at the two ears, when asked for
     reference: np.ndarray  # (n,) the target reference
     images: np.ndarray | None  # (n_sources, 2, n) every source's image, when asked for
 
@@ -60,6 +60,7 @@ class ListeningWorld:
         self.history = responses.length - 1  # past samples each render needs
         self._spectra: OrderedDict[tuple[int, int, int], np.ndarray] = OrderedDict()
         self._max_spectra = max(16, spectra_bytes // (2 * (self.n_fft // 2 + 1) * 8))
+        self._table: np.ndarray | None = None
 
     @property
     def warmup(self) -> int:
@@ -70,8 +71,28 @@ class ListeningWorld:
         """Dry samples each source needs for ``n_windows`` windows starting at :attr:`warmup`."""
         return self.warmup + n_windows * self.window + self.fade
 
+    @property
+    def table_bytes(self) -> int:
+        """Memory that :meth:`precompute` needs: every response spectrum in half precision."""
+        c, h, s = self.responses.early.shape[:3]
+        return c * h * s * 2 * (self.n_fft // 2 + 1) * 4
+
+    def precompute(self) -> None:
+        """Compute every response spectrum once and keep them (half precision), so no step pays an FFT for one."""
+        c, h, s = self.responses.early.shape[:3]
+        n_bins = self.n_fft // 2 + 1
+        table = np.empty((c, h, s, 2, n_bins, 2), np.float16)
+        for cell in range(c):
+            resp = np.repeat(self.responses.tail[cell][None].astype(np.float32), h, axis=0)  # (H, S, 2, L)
+            resp[..., : self.responses.early.shape[-1]] += self.responses.early[cell].astype(np.float32)
+            spec = sfft.rfft(resp, self.n_fft, axis=-1).astype(np.complex64)
+            table[cell] = spec.view(np.float32).reshape(h, s, 2, n_bins, 2)
+        self._table = table
+
     def spectrum(self, cell: int, heading: int, spot: int) -> np.ndarray:
-        """(2, F) complex64 spectrum of a response, kept in a bounded LRU cache."""
+        """(2, F) complex64 spectrum of a response: from the precomputed table, else a bounded LRU cache."""
+        if self._table is not None:
+            return self._table[cell, heading, spot].astype(np.float32).view(np.complex64)[..., 0]
         key = (cell, heading, spot)
         spec = self._spectra.get(key)
         if spec is None:
@@ -94,13 +115,21 @@ class ListeningWorld:
         return sfft.rfft(segs, axis=-1)
 
     def render(self, cell: int, heading: int, sources: list[Source], start: int, target: int = 0,
-               all_images: bool = False, seg: np.ndarray | None = None) -> Window:
+               all_images: bool = False, seg: np.ndarray | None = None, target_image: bool = True) -> Window:
         """The span [start, start + window + fade) heard at a pose, with no cross-fade."""
         seg = self.segment_spectra(sources, start) if seg is None else seg
-        per_source = np.stack([seg[i][None, :] * self.spectrum(cell, heading, s.spot) for i, s in enumerate(sources)])
         keep = slice(self.history, self.history + self.span)
-        mix = sfft.irfft(per_source.sum(axis=0), self.n_fft, axis=-1)[:, keep]
-        timg = sfft.irfft(per_source[target], self.n_fft, axis=-1)[:, keep]
+        if all_images:
+            per_source = np.stack([seg[i] * self.spectrum(cell, heading, s.spot) for i, s in enumerate(sources)])
+            total, target_spec = per_source.sum(axis=0), per_source[target]
+        else:
+            target_spec = seg[target] * self.spectrum(cell, heading, sources[target].spot)
+            total = target_spec.copy()
+            for i, s in enumerate(sources):
+                if i != target:
+                    total += seg[i] * self.spectrum(cell, heading, s.spot)
+        mix = sfft.irfft(total, self.n_fft, axis=-1)[:, keep]
+        timg = sfft.irfft(target_spec, self.n_fft, axis=-1)[:, keep] if target_image else None
         images = sfft.irfft(per_source, self.n_fft, axis=-1)[..., keep] if all_images else None
         ref = self.reference(cell, sources[target], start)
         return Window(start, mix, timg, ref, images)
@@ -130,10 +159,12 @@ def _ramp(n: int) -> np.ndarray:
 class ListeningSession:
     """Consecutive windows for one set of sources, with cross-fades between poses."""
 
-    def __init__(self, world: ListeningWorld, sources: list[Source], target: int = 0, all_images: bool = False):
+    def __init__(self, world: ListeningWorld, sources: list[Source], target: int = 0, all_images: bool = False,
+                 target_image: bool = True):
         if not 0 <= target < len(sources):
             raise ConfigError(f"target must index one of the {len(sources)} sources (got {target})")
         self.world, self.sources, self.target, self.all_images = world, list(sources), target, all_images
+        self.target_image = target_image
         self.time = world.warmup
         self._tail: Window | None = None
         self._ramp = _ramp(world.fade)
@@ -146,13 +177,15 @@ class ListeningSession:
 
     def peek(self, cell: int, heading: int) -> Window:
         """The current window at any pose, without moving or advancing time (no cross-fade)."""
-        win = self.world.render(cell, heading, self.sources, self.time, self.target, self.all_images, self._current_seg())
+        win = self.world.render(cell, heading, self.sources, self.time, self.target, self.all_images,
+                                self._current_seg(), self.target_image)
         return _cut(win, self.world.window)
 
     def listen(self, cell: int, heading: int) -> Window:
         """The current window at a pose, cross-faded from the previous pose; then advance one window."""
         w = self.world
-        span = w.render(cell, heading, self.sources, self.time, self.target, self.all_images, self._current_seg())
+        span = w.render(cell, heading, self.sources, self.time, self.target, self.all_images, self._current_seg(),
+                        self.target_image)
         if self._tail is not None and w.fade:
             span = _blend(self._tail, span, self._ramp)
         out = _cut(span, w.window)

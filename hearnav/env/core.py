@@ -13,15 +13,16 @@ from hearnav.env.episode import EpisodePlan, check_category, draw_episode, rende
 from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor
 from hearnav.env.patch import egocentric_patch, visible_sources
 from hearnav.env.worlds import World, get_world, resolve_scenes
-from hearnav.errors import ConfigError, HearnavError
+from hearnav.errors import ConfigError, HearnavError, SeparatorError
 from hearnav.listening import ListeningSession, Source, Window
-from hearnav.separation import SeparationContext, get_separator, si_sdr
+from hearnav.separation import SeparationContext, get_separator
+from hearnav.separation.metrics import si_sdr_unchecked
 
 FORWARD, TURN_LEFT, TURN_RIGHT, STAY = 0, 1, 2, 3
 ACTION_NAMES = ("forward", "turn-left", "turn-right", "stay")
 MAX_DISTANCE = 50.0
 #: Windows the start may be delayed by while the target is silent.
-MAX_LEAD_IN = 8
+MAX_LEAD_IN = 4
 #: A reference with less energy than this is silent: no SI-SDR exists for its window.
 SILENT_ENERGY = 1e-12
 
@@ -77,7 +78,7 @@ class HearNavEnv(gym.Env):
     ``scene`` and ``sources`` (role, spot, category, pool, voice, take, level). No wall-clock values.
     A window in which the target is silent (an alarm's pause) has no SI-SDR: ``target_active`` is False and
     both scores keep their previous values, so the reward is 0. An episode whose target starts in a pause
-    begins with the first window in which it sounds (at most 8 windows later).
+    begins with the first window in which it sounds (at most 4 windows later).
 
     ## Privileged access
     ``env.unwrapped.privileged`` (:class:`hearnav.env.privileged.PrivilegedView`) answers what no agent
@@ -151,7 +152,7 @@ class HearNavEnv(gym.Env):
         n = world.listening.signal_length(self.config.budget + 1 + MAX_LEAD_IN)
         signals = render_signals(plan, n, self.fs)
         sources = [Source(p.spot, x) for p, x in zip(plan.sources, signals)]
-        self._session = ListeningSession(world.listening, sources, target=0)
+        self._session = ListeningSession(world.listening, sources, target=0, target_image=self.separator.privileged)
         self.cell, self.heading = plan.start_cell, plan.start_heading
         self.steps = 0
         self._path = [(self.cell, self.heading)]
@@ -202,13 +203,14 @@ class HearNavEnv(gym.Env):
         """Listen to the next window; a window in which the target is silent keeps the previous scores."""
         self._window = self._session.listen(self.cell, self.heading)
         self.collided = collided
-        estimate, score = self.score_window(self._window, self.cell, self.heading)
+        self._bearing = self.target_bearing(self.cell, self.heading)
+        ctx = self.context(self.cell, self.heading, self._window)
+        estimate, score = self.score_window(self._window, self.cell, self.heading, ctx)
         self._estimate = estimate
         self.target_active = score is not None
         if score is not None:
             self.si_sdr_db = score
-            ear = self._ear(self._window.mixture, self.context(self.cell, self.heading))
-            self.mixture_si_sdr_db = si_sdr(ear, self._window.reference)
+            self.mixture_si_sdr_db = si_sdr_unchecked(self._ear.fn(self._window.mixture, ctx), self._window.reference)
 
     # -- separation ----------------------------------------------------------------------------------------------
 
@@ -226,15 +228,20 @@ class HearNavEnv(gym.Env):
         return SeparationContext(fs=self.fs, azimuth=bearing, target_image=image,
                                  radius=self.config.acoustics.head_radius, c=self.config.acoustics.speed_of_sound)
 
-    def score_window(self, window: Window, cell: int, heading: int) -> tuple[np.ndarray, float | None]:
+    def score_window(self, window: Window, cell: int, heading: int,
+                     ctx: SeparationContext | None = None) -> tuple[np.ndarray, float | None]:
         """The separator's estimate of the target in a window heard at a pose, and its SI-SDR in dB.
 
         The score is None when the target is silent in the window (its reference has no energy).
         """
-        estimate = self.separator(window.mixture, self.context(cell, heading, window))
+        ctx = ctx or self.context(cell, heading, window)
+        estimate = np.asarray(self.separator.fn(window.mixture, ctx), np.float32)  # our own input: no re-checks
+        if estimate.shape != (window.mixture.shape[1],) or not np.isfinite(estimate).all():
+            raise SeparatorError(f"separator {self.separator.name!r} must return a finite "
+                                 f"({window.mixture.shape[1]},) estimate, got shape {estimate.shape}")
         if float(np.dot(window.reference, window.reference)) <= SILENT_ENERGY:
             return estimate, None
-        return estimate, si_sdr(estimate, window.reference)
+        return estimate, si_sdr_unchecked(estimate, window.reference)
 
     # -- observation -----------------------------------------------------------------------------------------
 
@@ -245,7 +252,7 @@ class HearNavEnv(gym.Env):
         spots = np.array([scene.spots[p.spot].position[:2] for p in self.plan.sources])
         los = world.responses.line_of_sight[self.cell, [p.spot for p in self.plan.sources]]
         seen = visible_sources(xy, grid.heading_angle(self.heading), spots, los, np.deg2rad(cfg.fov_deg))
-        dist, bearing = self.target_bearing(self.cell, self.heading)
+        dist, bearing = self._bearing
         return {
             "binaural": self.features.binaural(self._window.mixture),
             "estimate": self.features.mono(self._estimate),

@@ -1,10 +1,13 @@
-"""Audio features of a window: per-ear band energies, interaural level and phase differences."""
+"""Audio features of a window: per-ear band energies, interaural level and phase differences.
+
+The window is cut into ``n_segments`` equal segments; each segment's Hann-windowed periodogram is summed into
+log-spaced bands. Interaural phase differences are the angles of the band-summed cross-spectra.
+"""
 
 from __future__ import annotations
 
 import numpy as np
 import scipy.fft as sfft
-from numpy.lib.stride_tricks import sliding_window_view
 
 #: Bounds of the features (the observation space is finite; values are clipped to these).
 LEVEL_DB = (-120.0, 40.0)
@@ -29,26 +32,22 @@ def band_matrix(n_fft: int, fs: float, n_bands: int) -> np.ndarray:
 class FeatureExtractor:
     """Band features of windows of a fixed length, on ``n_segments`` equal time segments."""
 
-    def __init__(self, fs: float, window: int, n_bands: int, n_segments: int, n_fft: int = 512, hop: int = 256):
-        self.n_fft, self.hop = n_fft, hop
-        self.n_frames = 1 + max(0, (window - n_fft) // hop)
-        if self.n_frames < n_segments:
+    def __init__(self, fs: float, window: int, n_bands: int, n_segments: int):
+        self.seg_len = window // n_segments
+        if self.seg_len < 2 * n_bands:
             from hearnav.errors import ConfigError
 
-            raise ConfigError(f"n_segments must be at most {self.n_frames} for {window}-sample windows "
-                              f"(got {n_segments})")
-        self.bands = band_matrix(n_fft, fs, n_bands)
-        self.segments = np.array_split(np.arange(self.n_frames), n_segments)
-        self.win = np.hanning(n_fft).astype(np.float32)
+            raise ConfigError(f"n_segments too large for {window}-sample windows (expected segments of at least "
+                              f"{2 * n_bands} samples, got {self.seg_len}); lower n_segments or n_bands")
+        self.n_used = self.seg_len * n_segments
+        self.bands = band_matrix(self.seg_len, fs, n_bands)
+        self.win = np.hanning(self.seg_len).astype(np.float32)
         self.shape = (n_segments, n_bands)
 
     def _spec(self, x: np.ndarray) -> np.ndarray:
-        frames = sliding_window_view(np.asarray(x, np.float32), self.n_fft, axis=-1)[..., :: self.hop, :]
-        return sfft.rfft(frames[..., : self.n_frames, :] * self.win, axis=-1)  # (..., T, F)
-
-    def _segment(self, per_frame: np.ndarray) -> np.ndarray:
-        """(..., T, B) -> (..., S, B) means over each segment's frames."""
-        return np.stack([per_frame[..., seg, :].mean(axis=-2) for seg in self.segments], axis=-2)
+        """(..., S, F) spectra of the segments."""
+        segs = np.asarray(x, np.float32)[..., : self.n_used].reshape(*np.shape(x)[:-1], self.shape[0], self.seg_len)
+        return sfft.rfft(segs * self.win, axis=-1)
 
     def binaural(self, x: np.ndarray) -> np.ndarray:
         """(5, S, B) float32: left and right level (dB), ILD (dB), cos and sin of the IPD.
@@ -58,16 +57,13 @@ class FeatureExtractor:
         x : (2, n) the two ears.
         """
         spec = self._spec(x)
-        power = self._segment((np.abs(spec) ** 2) @ self.bands)  # (2, S, B)
-        cross = self._segment((spec[0] * np.conj(spec[1])) @ self.bands)  # (S, B)
-        level = 10 * np.log10(power + 1e-12)
-        ild = level[0] - level[1]
+        level = 10 * np.log10((spec.real ** 2 + spec.imag ** 2) @ self.bands + 1e-12)  # (2, S, B)
+        cross = (spec[0] * np.conj(spec[1])) @ self.bands
         phase = np.angle(cross)
-        out = np.stack([np.clip(level[0], *LEVEL_DB), np.clip(level[1], *LEVEL_DB), np.clip(ild, *ILD_DB),
-                        np.cos(phase), np.sin(phase)])
-        return out.astype(np.float32)
+        return np.stack([np.clip(level[0], *LEVEL_DB), np.clip(level[1], *LEVEL_DB),
+                         np.clip(level[0] - level[1], *ILD_DB), np.cos(phase), np.sin(phase)]).astype(np.float32)
 
     def mono(self, y: np.ndarray) -> np.ndarray:
         """(1, S, B) float32 level in dB of a mono signal (n,)."""
-        power = self._segment((np.abs(self._spec(y)) ** 2) @ self.bands)
-        return np.clip(10 * np.log10(power + 1e-12), *LEVEL_DB)[None].astype(np.float32)
+        spec = self._spec(y)
+        return np.clip(10 * np.log10((spec.real ** 2 + spec.imag ** 2) @ self.bands + 1e-12), *LEVEL_DB)[None].astype(np.float32)

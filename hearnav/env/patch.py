@@ -2,13 +2,16 @@
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 
 from hearnav.scene.grid import Grid
 
 
+@functools.lru_cache(maxsize=64)
 def patch_offsets(size: int, heading_angle: float) -> np.ndarray:
-    """(size, size, 2) world offsets in cells of each patch entry; row 0 is ahead, column 0 is to the left.
+    """(size, size, 2) grid offsets (rounded) of each patch entry; row 0 is ahead, column 0 is to the left.
 
     Entry (r, c) lies (half - r) cells ahead and (half - c) cells to the left of the listener.
     """
@@ -17,7 +20,9 @@ def patch_offsets(size: int, heading_angle: float) -> np.ndarray:
     left = np.ones(size)[:, None] * (half - np.arange(size))[None, :]
     f = np.array([np.cos(heading_angle), np.sin(heading_angle)])
     l_ = np.array([-f[1], f[0]])
-    return ahead[..., None] * f + left[..., None] * l_
+    out = np.rint(ahead[..., None] * f + left[..., None] * l_).astype(np.int64)
+    out.flags.writeable = False
+    return out
 
 
 def egocentric_patch(grid: Grid, cell: int, heading: int, size: int, visible_xy: np.ndarray) -> np.ndarray:
@@ -27,7 +32,7 @@ def egocentric_patch(grid: Grid, cell: int, heading: int, size: int, visible_xy:
     ----------
     visible_xy : (k, 2) positions (m) of the sources in line of sight and in the field of view.
     """
-    off = np.rint(patch_offsets(size, grid.heading_angle(heading))).astype(np.int64)
+    off = patch_offsets(size, grid.heading_angle(heading))
     ij = grid.ij[cell] + off  # (size, size, 2)
     inside = (ij[..., 0] >= 0) & (ij[..., 0] < grid.index.shape[0]) & (ij[..., 1] >= 0) & (ij[..., 1] < grid.index.shape[1])
     ids = np.full(inside.shape, -1, np.int64)

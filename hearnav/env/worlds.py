@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass
 from functools import lru_cache
 
@@ -25,13 +26,24 @@ class World:
     listening: ListeningWorld
 
 
+#: Memory (bytes) this process may spend on precomputed response spectra, over all worlds
+#: (HEARNAV_SPECTRA_MB overrides; worlds beyond it compute spectra on demand through a bounded cache).
+SPECTRA_BUDGET = int(float(os.environ.get("HEARNAV_SPECTRA_MB", "4096")) * 2**20)
+_spent = 0
+
+
 @lru_cache(maxsize=32)
 def get_world(name: str, settings: AcousticSettings, window: int) -> World:
     """The world of a named scene (built into the response cache on first use)."""
+    global _spent
     scene = load_named(name)
     grid = build_grid(scene, settings.n_headings)
     responses = load_or_build(scene, settings, grid)
-    return World(scene, grid, responses, ListeningWorld(responses, window))
+    listening = ListeningWorld(responses, window)
+    if _spent + listening.table_bytes <= SPECTRA_BUDGET:
+        listening.precompute()
+        _spent += listening.table_bytes
+    return World(scene, grid, responses, listening)
 
 
 def resolve_scenes(scenes: str | list[str], procedural_pool: int) -> tuple[str, ...]:

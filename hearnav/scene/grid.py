@@ -7,6 +7,7 @@ lattice rows separates them even though the cells on both sides are clear.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -44,10 +45,12 @@ class Grid:
     def n_cells(self) -> int:
         return int(self.ij.shape[0])
 
-    @property
+    @functools.cached_property
     def centers(self) -> np.ndarray:
-        """(n_cells, 2) cell centres in metres."""
-        return self.origin + self.ij * self.spacing
+        """(n_cells, 2) cell centres in metres (read-only)."""
+        out = self.origin + self.ij * self.spacing
+        out.flags.writeable = False
+        return out
 
     def heading_angle(self, heading: int) -> float:
         """Heading in radians, counter-clockwise from +x."""

@@ -1,0 +1,116 @@
+"""env.step rate of the default configuration, against its floor and against re-simulating the room.
+
+In one process it measures:
+- steps per second of HearNavEnv (default config) over seeded random-action episodes, after a warm-up;
+- the floor for the same windows: bare FFT mixing from cached response spectra (one FFT per dry segment,
+  a product per source, two inverse FFTs) plus one STFT/ISTFT pair;
+- re-simulating the room with pyroomacoustics at every step (hybrid image sources + ray tracing at both
+  ears, then convolution), which is how a user would wire it by hand.
+Usage: python benchmarks/step_speed.py [--episodes 30] [--resim 2]
+"""
+
+from __future__ import annotations
+
+import os
+
+os.environ.setdefault("PRA_NUM_THREADS", "1")
+for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ[_var] = "1"
+
+import argparse  # noqa: E402
+import time  # noqa: E402
+
+import numpy as np  # noqa: E402
+import scipy.fft as sfft  # noqa: E402
+
+
+def run_episodes(env, seeds: list[int]) -> tuple[float, int, list]:
+    """Seconds spent in env.step, steps taken, and (world, cell, heading, time) of every step for the floor."""
+    spent, steps, record = 0.0, 0, []
+    for seed in seeds:
+        rng = np.random.default_rng(seed)
+        env.reset(seed=seed)
+        truncated = False
+        while not truncated:
+            action = int(rng.integers(4))
+            t0 = time.perf_counter()
+            _, _, _, truncated, _ = env.step(action)
+            spent += time.perf_counter() - t0
+            steps += 1
+            record.append((env.world, env._session.sources, env.cell, env.heading, env._session.time - env.window))
+    return spent, steps, record
+
+
+def floor_time(record: list) -> float:
+    """Seconds for bare FFT mixing of the recorded windows from cached spectra, plus one STFT/ISTFT pair."""
+    from hearnav.separation.stft import istft, stft
+
+    spent = 0.0
+    for world, sources, cell, heading, start in record:
+        lw = world.listening
+        spectra = [lw.spectrum(cell, heading, s.spot) for s in sources]  # cached: not timed as work
+        t0 = time.perf_counter()
+        lo = start - lw.history
+        segs = np.zeros((len(sources), lw.n_fft), np.float32)
+        for i, s in enumerate(sources):
+            segs[i, : lw.history + lw.window] = s.signal[lo: start + lw.window]
+        seg = sfft.rfft(segs, axis=-1)
+        mix = sfft.irfft(sum(seg[i][None] * spectra[i] for i in range(len(sources))), lw.n_fft, axis=-1)
+        window = mix[:, lw.history: lw.history + lw.window]
+        istft(stft(window, 512, 128)[0], lw.window, 512, 128)
+        spent += time.perf_counter() - t0
+    return spent
+
+
+def resim_time(env, n_steps: int) -> float:
+    """Seconds per step of re-simulating the room with pyroomacoustics at the listener's two ears."""
+    import pyroomacoustics as pra
+
+    from hearnav.acoustics import room as room_mod
+    from hearnav.acoustics.head import ear_axes
+
+    settings = env.config.acoustics
+    scene, grid = env.world.scene, env.world.grid
+    total = 0.0
+    for k in range(n_steps):
+        cell = (env.cell + k) % grid.n_cells
+        centre = np.r_[grid.centers[cell], scene.ear_height]
+        ears = centre + settings.head_radius * ear_axes(grid.heading_angle(env.heading))
+        t0 = time.perf_counter()
+        room_mod.configure(settings)
+        room = pra.Room(room_mod.room_walls(scene), fs=settings.fs, max_order=settings.ism_order, ray_tracing=True)
+        room.set_ray_tracing(receiver_radius=settings.receiver_radius)
+        for src, sig in zip(env.plan.sources, env._session.sources):
+            room.add_source(scene.spots[src.spot].position, signal=sig.signal[: env.window * 2])
+        room.add_microphone_array(ears.T)
+        room.simulate()
+        total += time.perf_counter() - t0
+    return total / n_steps
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--episodes", type=int, default=30)
+    parser.add_argument("--warmup", type=int, default=10)
+    parser.add_argument("--resim", type=int, default=2, help="steps re-simulated with pyroomacoustics")
+    args = parser.parse_args()
+    from hearnav.env import HearNavEnv
+
+    env = HearNavEnv(config="default")
+    seeds = [int(s.generate_state(1)[0]) for s in np.random.SeedSequence(7).spawn(args.warmup + args.episodes)]
+    t0 = time.perf_counter()
+    run_episodes(env, seeds[: args.warmup])
+    print(f"warm-up: {args.warmup} episodes in {time.perf_counter() - t0:.1f} s (scene builds come from the cache)")
+    spent, steps, record = run_episodes(env, seeds[args.warmup:])
+    step_s = spent / steps
+    floor_s = floor_time(record) / steps
+    resim_s = resim_time(env, args.resim)
+    print(f"env.step: {1 / step_s:8.1f} steps/s ({step_s * 1e3:.2f} ms)  [goal >= 300 steps/s]")
+    print(f"floor:    {1 / floor_s:8.1f} steps/s ({floor_s * 1e3:.2f} ms) bare FFT mixing + one STFT/ISTFT pair")
+    print(f"ratio step / floor: {step_s / floor_s:.2f}x  [goal <= 1.5x]")
+    print(f"re-simulating with pyroomacoustics: {resim_s:.2f} s per step; env.step is {resim_s / step_s:.0f}x "
+          f"faster  [goal >= 100x]")
+
+
+if __name__ == "__main__":
+    main()
