@@ -6,29 +6,17 @@ import time
 
 import numpy as np
 import pytest
-import shapely
 
 from hearnav.acoustics.decay import scene_rt60
 from hearnav.errors import ConfigError
 from hearnav.scene import build_grid, generator, parse_text
 from hearnav.scene.format import SceneSpec
 from hearnav.scene.loader import dump_spec, from_dict
+from tests.scene.geometry_checks import grid_moves_cross_solids
 
 SEEDS = range(30)
 
 
-def grid_moves_cross_solids(scene, grid) -> int:
-    """How many single grid moves pass through an obstacle or leave the outline."""
-    solids = shapely.union_all([shapely.Polygon(ob.polygon) for ob in scene.obstacles])
-    room = shapely.Polygon(scene.outline)
-    segments = []
-    for cell in range(grid.n_cells):
-        for heading in range(grid.n_headings):
-            target = grid.forward(cell, heading)
-            if target >= 0:
-                segments.append(shapely.LineString([grid.centers[cell], grid.centers[target]]))
-    segments = np.array(segments, dtype=object)
-    return int(np.sum(shapely.intersects(solids, segments) | ~shapely.within(segments, room)))
 
 
 @pytest.mark.parametrize("seed", [0, 7, 123456])

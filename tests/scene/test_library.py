@@ -2,30 +2,17 @@
 
 from __future__ import annotations
 
-import numpy as np
 import pytest
-import shapely
 
 from hearnav.acoustics.decay import scene_rt60
 from hearnav.errors import ConfigError, SceneError
 from hearnav.scene import build_grid, library
+from tests.scene.geometry_checks import grid_moves_cross_solids
 
 BUNDLED = library.scene_files()
 BAND_500, BAND_1K = 2, 3
 
 
-def grid_moves_cross_solids(scene, grid) -> int:
-    """How many single grid moves pass through an obstacle or leave the outline."""
-    solids = shapely.union_all([shapely.Polygon(ob.polygon) for ob in scene.obstacles])
-    room = shapely.Polygon(scene.outline)
-    segments = []
-    for cell in range(grid.n_cells):
-        for heading in range(grid.n_headings):
-            target = grid.forward(cell, heading)
-            if target >= 0:
-                segments.append(shapely.LineString([grid.centers[cell], grid.centers[target]]))
-    segments = np.array(segments, dtype=object)
-    return int(np.sum(shapely.intersects(solids, segments) | ~shapely.within(segments, room)))
 
 
 @pytest.fixture(autouse=True)
