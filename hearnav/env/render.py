@@ -16,7 +16,7 @@ def draw_frame(env, size_px: int = 480) -> np.ndarray:
     world, plan = env.world, env.plan
     grid = world.grid
     fig, ax = plt.subplots(figsize=(size_px / 100, size_px / 100), dpi=100)
-    draw_plan(ax, world.scene, grid, label_spots=False)
+    draw_plan(ax, world.scene, grid, label_spots=False, show_spots=False)
     for k, src in enumerate(plan.sources):
         xy = world.scene.spots[src.spot].position[:2]
         ax.scatter(*xy, marker="*", s=260 if k == 0 else 160, c="red" if k == 0 else "0.45", ec="k", zorder=6)

@@ -15,8 +15,8 @@ from hearnav.scene.grid import Grid  # noqa: E402
 from hearnav.scene.model import Scene  # noqa: E402
 
 
-def draw_plan(ax, scene: Scene, grid: Grid | None = None, label_spots: bool = True) -> None:
-    """Draw the plan on a matplotlib axis, in metres."""
+def draw_plan(ax, scene: Scene, grid: Grid | None = None, label_spots: bool = True, show_spots: bool = True) -> None:
+    """Draw the plan on a matplotlib axis, in metres (source spots as stars unless ``show_spots`` is False)."""
     ax.add_patch(Polygon(scene.outline, closed=True, fill=False, lw=2.5, ec="0.15"))
     for ob in scene.obstacles:
         ax.add_patch(Polygon(ob.polygon, closed=True, fc="0.35" if ob.full_height else "0.72", ec="0.2", lw=0.8))
@@ -27,9 +27,10 @@ def draw_plan(ax, scene: Scene, grid: Grid | None = None, label_spots: bool = Tr
         ax.add_patch(Rectangle((x0, y0), x1 - x0, y1 - y0, fill=False, ec="tab:green", ls="--", lw=1.2,
                                label="start region"))
     spots = np.array([s.position[:2] for s in scene.spots])
-    ax.scatter(spots[:, 0], spots[:, 1], marker="*", s=140, c="tab:orange", ec="k", lw=0.5, zorder=5,
-               label="source spots")
-    if label_spots:
+    if show_spots:
+        ax.scatter(spots[:, 0], spots[:, 1], marker="*", s=140, c="tab:orange", ec="k", lw=0.5, zorder=5,
+                   label="source spots")
+    if label_spots and show_spots:
         for s in scene.spots:
             ax.annotate(s.name, s.position[:2], xytext=(4, 4), textcoords="offset points", fontsize=7)
     lo, hi = scene.outline.min(axis=0), scene.outline.max(axis=0)
