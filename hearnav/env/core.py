@@ -14,7 +14,7 @@ from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor
 from hearnav.env.patch import egocentric_patch, visible_sources
 from hearnav.env.worlds import World, get_world, resolve_scenes
 from hearnav.errors import ConfigError, HearnavError, SeparatorError
-from hearnav.listening import ListeningSession, Source, Window
+from hearnav.listening import FADE_S, ListeningSession, Source, Window
 from hearnav.separation import SeparationContext, get_separator
 from hearnav.separation.metrics import si_sdr_unchecked
 
@@ -29,6 +29,17 @@ SILENT_ENERGY = 1e-12
 
 class InvalidActionError(HearnavError, ValueError):
     """An action outside the action space."""
+
+
+def scored_part(window: Window, fade: int) -> Window:
+    """The part of a window that is scored: after the cross-fade from the previous pose.
+
+    Scoring only what follows the cross-fade makes a pose's score at a time independent of where the
+    listener came from, so look-ahead scores and the oracle bound are exact.
+    """
+    cut = lambda a: None if a is None else a[..., fade:]  # noqa: E731
+    return Window(window.start + fade, cut(window.mixture), cut(window.target_image), cut(window.reference),
+                  cut(window.images))
 
 
 class HearNavEnv(gym.Env):
@@ -66,7 +77,8 @@ class HearNavEnv(gym.Env):
 
     ## Reward
     ``si_sdr_after - si_sdr_before`` in dB: the separator's SI-SDR on the window just heard minus its SI-SDR on
-    the previous window (the first window is heard at reset). The rewards of an episode sum to the final minus
+    the previous window (the first window is heard at reset). A window is scored after its first 20 ms, the
+    cross-fade from the previous pose, so a pose's score at a given time does not depend on the path to it. The rewards of an episode sum to the final minus
     the starting SI-SDR. ``reward_clip`` clips each reward to +/- that many dB.
 
     ## Episode end
@@ -111,7 +123,9 @@ class HearNavEnv(gym.Env):
         self.scene_names = resolve_scenes(cfg.scenes, cfg.procedural_pool)
         self.fs = cfg.acoustics.fs
         self.window = int(round(cfg.hop_s * self.fs))
+        self._fade = int(round(FADE_S * self.fs))
         self.features = FeatureExtractor(self.fs, self.window, cfg.n_bands, cfg.n_segments)
+        self.estimate_features = FeatureExtractor(self.fs, self.window - self._fade, cfg.n_bands, cfg.n_segments)
         seg, bands = self.features.shape
         lo, hi = LEVEL_DB
         level = lambda n: spaces.Box(lo, hi, (n, seg, bands), np.float32)  # noqa: E731
@@ -204,13 +218,14 @@ class HearNavEnv(gym.Env):
         self._window = self._session.listen(self.cell, self.heading)
         self.collided = collided
         self._bearing = self.target_bearing(self.cell, self.heading)
-        ctx = self.context(self.cell, self.heading, self._window)
+        scored = scored_part(self._window, self._fade)
+        ctx = self.context(self.cell, self.heading, scored)
         estimate, score = self.score_window(self._window, self.cell, self.heading, ctx)
         self._estimate = estimate
         self.target_active = score is not None
         if score is not None:
             self.si_sdr_db = score
-            self.mixture_si_sdr_db = si_sdr_unchecked(self._ear.fn(self._window.mixture, ctx), self._window.reference)
+            self.mixture_si_sdr_db = si_sdr_unchecked(self._ear.fn(scored.mixture, ctx), scored.reference)
 
     # -- separation ----------------------------------------------------------------------------------------------
 
@@ -234,6 +249,7 @@ class HearNavEnv(gym.Env):
 
         The score is None when the target is silent in the window (its reference has no energy).
         """
+        window = scored_part(window, self._fade)
         ctx = ctx or self.context(cell, heading, window)
         estimate = np.asarray(self.separator.fn(window.mixture, ctx), np.float32)  # our own input: no re-checks
         if estimate.shape != (window.mixture.shape[1],) or not np.isfinite(estimate).all():
@@ -255,7 +271,7 @@ class HearNavEnv(gym.Env):
         dist, bearing = self._bearing
         return {
             "binaural": self.features.binaural(self._window.mixture),
-            "estimate": self.features.mono(self._estimate),
+            "estimate": self.estimate_features.mono(self._estimate),
             "map": egocentric_patch(grid, self.cell, self.heading, cfg.patch_size, spots[seen]),
             "target": np.array([min(dist, MAX_DISTANCE), np.sin(bearing), np.cos(bearing)], np.float32),
             "budget": np.array([1.0 - self.steps / cfg.budget], np.float32),

@@ -121,14 +121,17 @@ def test_start_is_far_enough_from_the_target(make_env):
         assert obs["target"][0] >= 2.0 - 1e-6
 
 
-def test_privileged_score_matches_the_next_window(make_env):
-    # Staying put, the next window is heard at the same pose, so the privileged look-ahead score equals it.
+@pytest.mark.parametrize("action", [0, 1, 3])
+def test_privileged_score_matches_the_next_window(make_env, action):
+    # Windows are scored after the cross-fade from the previous pose, so the privileged look-ahead score of
+    # the pose an action leads to equals the score the step then reports.
     env = make_env()
     env.reset(seed=4)
-    predicted = env.privileged.score(env.cell, env.heading)
-    *_, info = env.step(3)
-    assert info["si_sdr_db"] == pytest.approx(predicted, abs=1e-3)  # equal up to the cross-fade's rounding
-    assert env.privileged.privileged is True
+    view = env.privileged
+    predicted = view.score(*view.next_pose(env.cell, env.heading, action))
+    *_, info = env.step(action)
+    assert info["si_sdr_db"] == pytest.approx(predicted, abs=1e-9)
+    assert view.privileged is True
     assert "privileged" not in env.observation_space.spaces
 
 
