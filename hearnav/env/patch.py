@@ -26,7 +26,8 @@ def patch_offsets(size: int, heading_angle: float) -> np.ndarray:
 
 
 def egocentric_patch(grid: Grid, cell: int, heading: int, size: int, visible_xy: np.ndarray) -> np.ndarray:
-    """(2, size, size) float32: channel 0 is 1 where the floor is not navigable, channel 1 marks visible sources.
+    """(2, size, size) float32: channel 0 is 1 where the floor is not navigable (and on the four neighbours the
+    listener cannot step to), channel 1 marks visible sources.
 
     Parameters
     ----------
@@ -40,6 +41,13 @@ def egocentric_patch(grid: Grid, cell: int, heading: int, size: int, visible_xy:
     out = np.zeros((2, size, size), np.float32)
     out[0] = ids < 0
     half = size // 2
+    # A thin wall between two navigable cells blocks the move without filling either cell: mark the
+    # neighbour as blocked when the move to it is, so the map shows every wall the listener can bump into.
+    for k in range(0, grid.n_headings, grid.n_headings // 4):
+        if grid.forward(cell, (heading + k) % grid.n_headings) < 0:
+            r, c = {0: (half - 1, half), 1: (half, half - 1), 2: (half + 1, half), 3: (half, half + 1)}[
+                k // (grid.n_headings // 4)]
+            out[0, r, c] = 1.0
     angle = grid.heading_angle(heading)
     f = np.array([np.cos(angle), np.sin(angle)])
     for xy in np.asarray(visible_xy, float).reshape(-1, 2):

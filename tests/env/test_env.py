@@ -183,3 +183,17 @@ def test_invalid_action(make_env, action):
     with pytest.raises(InvalidActionError, match=r"action must be an integer in \[0, 3\] \(forward, turn-left, "
                                                    r"turn-right, stay\), got"):
         env.step(action)
+
+
+def test_map_shows_every_blocked_neighbour(make_env):
+    # The egocentric map must show a wall ahead exactly when a forward move collides (row half-1 is ahead),
+    # thin partitions between two navigable cells included.
+    env = make_env()
+    obs, _ = env.reset(seed=0)
+    half = env.config.patch_size // 2
+    grid = env.world.grid
+    for cell in range(grid.n_cells):
+        for heading in range(grid.n_headings):
+            env.cell, env.heading = cell, heading
+            m = env._obs()["map"][0]
+            assert (m[half - 1, half] == 1.0) == (grid.forward(cell, heading) < 0), (cell, heading)
