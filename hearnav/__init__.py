@@ -18,8 +18,12 @@ def __getattr__(name: str):
         from hearnav.env.core import HearNavEnv
 
         return HearNavEnv
+    if name == "register_policy":
+        from hearnav.bench.registry import register_policy
+
+        return register_policy
     raise AttributeError(f"module 'hearnav' has no attribute {name!r}")
 
 
-__all__ = ["ENV_ID", "ConfigError", "HearNavEnv", "HearnavError", "PolicyError", "SceneError", "SeparatorError",
+__all__ = ["ENV_ID", "ConfigError", "HearNavEnv", "register_policy", "HearnavError", "PolicyError", "SceneError", "SeparatorError",
            "SoundError", "__version__", "si_sdr"]

@@ -6,7 +6,7 @@ import argparse
 import sys
 
 from hearnav import __version__
-from hearnav.cli import scenes_cmd
+from hearnav.cli import bench_cmd, scenes_cmd
 from hearnav.errors import HearnavError
 
 
@@ -19,6 +19,7 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"hearnav {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
     scenes_cmd.register(sub)
+    bench_cmd.register(sub)
     return parser
 
 

@@ -22,7 +22,8 @@ class EnvConfig(BaseModel):
 
     scenes: str | list[str] = Field(default="train", description="a split, 'procedural', or scene names")
     procedural_pool: int = Field(default=16, ge=1, le=100000, description="generated scenes gen-0..gen-(N-1)")
-    target_category: str | None = Field(default=None, description="category of the target sound (None: any)")
+    target_category: str | list[str] | None = Field(
+        default=None, description="category (or list of categories) of the target sound; None: any")
     distractors: tuple[int, int] = Field(default=(1, 3), description="min and max number of distractors")
     sound_pool: Literal["seen", "unseen"] = "seen"
     distractor_level_db: tuple[float, float] = Field(default=(-6.0, 6.0),
@@ -44,6 +45,13 @@ class EnvConfig(BaseModel):
         if value % 2 == 0:
             raise ValueError(f"patch_size must be odd so the listener sits in the centre (got {value})")
         return value
+
+    @property
+    def target_categories(self) -> tuple[str, ...] | None:
+        """The allowed target categories, or None for any."""
+        if self.target_category is None:
+            return None
+        return (self.target_category,) if isinstance(self.target_category, str) else tuple(self.target_category)
 
     @model_validator(mode="after")
     def _ranges(self) -> EnvConfig:

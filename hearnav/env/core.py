@@ -101,7 +101,7 @@ class HearNavEnv(gym.Env):
     ``HearNavEnv(config=None, render_mode=None, **options)``: ``config`` is a YAML path, a bundled name in
     configs/env/ (e.g. "default") or a dict; keyword options override it. Options (see
     :class:`hearnav.env.config.EnvConfig`): ``scenes`` (a split, "procedural", or a list of names),
-    ``procedural_pool``, ``target_category``, ``distractors`` ([min, max]), ``sound_pool`` ("seen" or
+    ``procedural_pool``, ``target_category`` (a category or a list), ``distractors`` ([min, max]), ``sound_pool`` ("seen" or
     "unseen"), ``distractor_level_db`` ([low, high] relative to the target), ``min_start_distance`` (m),
     ``hop_s``, ``budget``, ``separator``, ``reward_clip``, ``n_bands``, ``n_segments``, ``patch_size``,
     ``fov_deg`` and ``acoustics`` (:class:`hearnav.acoustics.AcousticSettings` fields). Unknown options and
@@ -117,7 +117,7 @@ class HearNavEnv(gym.Env):
             raise ConfigError(f"render_mode must be None or 'rgb_array' (got {render_mode!r})")
         self.render_mode = render_mode
         cfg = self.config
-        check_category(cfg.target_category)
+        check_category(cfg.target_categories)
         self.separator = get_separator(cfg.separator)
         self._ear = get_separator("ear")
         self.scene_names = resolve_scenes(cfg.scenes, cfg.procedural_pool)

@@ -48,10 +48,12 @@ def allowed_categories(scene: Scene, spot: int) -> tuple[str, ...]:
     return tuple(c for c in registered if spec is None or c in spec)
 
 
-def check_category(category: str | None) -> None:
+def check_category(categories: tuple[str, ...] | None) -> None:
     """Raise ConfigError for an unregistered target category."""
-    if category is not None and category not in sounds.categories():
-        raise ConfigError(f"option 'target_category': {unknown_name('sound category', category, sounds.categories())}")
+    for category in categories or ():
+        if category not in sounds.categories():
+            raise ConfigError(f"option 'target_category': "
+                              f"{unknown_name('sound category', category, sounds.categories())}")
 
 
 def _start(grid: Grid, target_xy: np.ndarray, min_dist: float, rng: np.random.Generator) -> int:
@@ -66,8 +68,13 @@ def _start(grid: Grid, target_xy: np.ndarray, min_dist: float, rng: np.random.Ge
 def draw_episode(rng: np.random.Generator, cfg: EnvConfig, scene_name: str, scene: Scene, grid: Grid) -> EpisodePlan:
     """Draw the random parts of an episode in a fixed order from ``rng``."""
     n_spots = len(scene.spots)
-    targets = [s for s in range(n_spots)
-               if cfg.target_category is None or cfg.target_category in allowed_categories(scene, s)]
+    wanted = cfg.target_categories
+
+    def target_options(spot: int) -> tuple[str, ...]:
+        cats = allowed_categories(scene, spot)
+        return cats if wanted is None else tuple(c for c in cats if c in wanted)
+
+    targets = [s for s in range(n_spots) if target_options(s)]
     if not targets:
         raise ConfigError(f"scene {scene_name!r} has no spot that accepts target category {cfg.target_category!r} "
                           f"(expected at least one); choose other scenes or another category")
@@ -78,8 +85,8 @@ def draw_episode(rng: np.random.Generator, cfg: EnvConfig, scene_name: str, scen
     chosen = [int(s) for s in rng.permutation(others)[: min(n_dist, len(others))]]
     plans = []
     for role, spot in [("target", target)] + [("distractor", s) for s in chosen]:
-        cats = allowed_categories(scene, spot)
-        category = cfg.target_category if role == "target" and cfg.target_category else str(rng.choice(cats))
+        cats = target_options(spot) if role == "target" else allowed_categories(scene, spot)
+        category = str(rng.choice(cats))
         voice = int(rng.integers(sounds.pool_size(category, cfg.sound_pool)))
         take = int(rng.integers(2**31 - 1))
         level = 0.0 if role == "target" else float(rng.uniform(*cfg.distractor_level_db))

@@ -52,7 +52,16 @@ class PrivilegedView:
         return cell, heading
 
     def score(self, cell: int, heading: int) -> float:
-        """The separator's SI-SDR (dB) at a pose for the window the next step will hear, without moving."""
+        """The separator's SI-SDR (dB) at a pose for the window the next step will hear, without moving.
+
+        Where the target is silent in that window there is no SI-SDR; the current score is returned, as the
+        environment would keep it.
+        """
+        score = self.score_or_none(cell, heading)
+        return self._env.si_sdr_db if score is None else score
+
+    def score_or_none(self, cell: int, heading: int) -> float | None:
+        """:meth:`score`, or None where the target is silent in that window."""
         env = self._env
         window = env._session.peek(cell, heading)
         return env.score_window(window, cell, heading)[1]
@@ -60,3 +69,13 @@ class PrivilegedView:
     def scores(self, poses: list[tuple[int, int]]) -> np.ndarray:
         """:meth:`score` of several poses, (len(poses),)."""
         return np.array([self.score(c, h) for c, h in poses])
+
+    def last_window(self) -> dict[str, np.ndarray]:
+        """What was heard in the last window: the binaural mixture (2, n), and over its scored part the
+        separator's estimate (m,) and the target reference (m,)."""
+        env = self._env
+        from hearnav.env.core import scored_part
+
+        scored = scored_part(env._window, env._fade)
+        return {"mixture": env._window.mixture.copy(), "estimate": np.asarray(env._estimate).copy(),
+                "reference": scored.reference.copy()}

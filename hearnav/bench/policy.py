@@ -1,0 +1,90 @@
+"""The policy protocol, and an adapter for stable-baselines3 models.
+
+A policy is any object with
+
+- ``reset(observation, info) -> None``, called at the start of every episode;
+- ``act(observation, info) -> int``, called on every step, returning an action of the environment.
+
+``info`` is the environment's info dict plus two keys the benchmark adds: ``"seed"``, an integer for the
+policy's own randomness in this episode (derived from the episode seed, so reruns repeat), and, only for a
+policy whose ``privileged`` attribute is true, ``"privileged"``: the environment's
+:class:`~hearnav.env.privileged.PrivilegedView`. A policy that uses it is a reference, not an agent, and is
+marked privileged in every result.
+"""
+
+from __future__ import annotations
+
+from typing import Any, Protocol, runtime_checkable
+
+import numpy as np
+
+from hearnav.errors import PolicyError
+
+
+@runtime_checkable
+class Policy(Protocol):
+    """What the benchmark drives."""
+
+    def reset(self, observation: dict, info: dict) -> None: ...
+
+    def act(self, observation: dict, info: dict) -> int: ...
+
+
+def is_privileged(policy: Any) -> bool:
+    """Whether a policy asks for privileged access."""
+    return bool(getattr(policy, "privileged", False))
+
+
+class SB3Policy:
+    """Drive any object with stable-baselines3's ``predict(observation, state, episode_start, deterministic)``.
+
+    ``flatten`` turns the Dict observation into one vector first (for models trained on
+    :class:`hearnav.env.FlatObservation`); by default it follows the model's observation space.
+    """
+
+    privileged = False
+
+    def __init__(self, model: Any, deterministic: bool = True, flatten: bool | None = None):
+        if not callable(getattr(model, "predict", None)):
+            raise PolicyError(f"an SB3-style policy needs a predict(observation, state, episode_start, "
+                              f"deterministic) method (got {type(model).__name__} without one)")
+        self.model, self.deterministic = model, deterministic
+        space = getattr(model, "observation_space", None)
+        self.flatten = flatten if flatten is not None else (space is not None and not hasattr(space, "spaces"))
+        self._state, self._start = None, True
+
+    def _prepare(self, observation: dict) -> Any:
+        if self.flatten:
+            return np.concatenate([np.asarray(observation[k], np.float32).ravel() for k in sorted(observation)])
+        return observation
+
+    def reset(self, observation: dict, info: dict) -> None:
+        self._state, self._start = None, True
+
+    def act(self, observation: dict, info: dict) -> int:
+        action, self._state = self.model.predict(self._prepare(observation), state=self._state,
+                                                 episode_start=np.array([self._start]),
+                                                 deterministic=self.deterministic)
+        self._start = False
+        return int(np.asarray(action).reshape(-1)[0])
+
+
+def as_policy(obj: Any) -> Any:
+    """A policy from a policy, an SB3-style model, a class (instantiated with no arguments) or a factory."""
+    if isinstance(obj, type):
+        try:
+            obj = obj()
+        except TypeError as exc:
+            raise PolicyError(f"policy class {obj.__name__} must take no arguments (got {exc})") from None
+    if callable(getattr(obj, "act", None)) and callable(getattr(obj, "reset", None)):
+        return obj
+    if callable(getattr(obj, "predict", None)):
+        return SB3Policy(obj)
+    if callable(obj):
+        made = obj()
+        if callable(getattr(made, "act", None)) or callable(getattr(made, "predict", None)):
+            return as_policy(made)
+        raise PolicyError(f"policy factory {getattr(obj, '__name__', obj)!r} returned {type(made).__name__}, "
+                          f"expected an object with reset() and act(), or predict()")
+    raise PolicyError(f"expected a policy (reset() and act()), an SB3-style model (predict()), a class or a "
+                      f"factory; got {type(obj).__name__}")

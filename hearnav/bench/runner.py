@@ -1,0 +1,141 @@
+"""Run policies on a suite: one row per policy x episode, appended as each finishes, resumable.
+
+The main process owns the result file; workers (a process pool) run whole episodes and send rows back. A
+policy that raises, returns an invalid action or NaN fails its episode, which is recorded with the error;
+the run goes on.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from hearnav.bench.oracle import OracleCache, oracle_bound
+from hearnav.bench.policy import is_privileged
+from hearnav.bench.registry import resolve
+from hearnav.bench.suites import Suite, policy_seed
+from hearnav.env.core import HearNavEnv
+
+_ENV: HearNavEnv | None = None
+_OPTIONS: dict | None = None
+
+
+@dataclass(frozen=True)
+class Task:
+    """One policy on one episode."""
+
+    policy: str
+    index: int
+    seed: int
+    oracle: float | None
+    audio_dir: str | None = None
+
+
+def _env(options: dict) -> HearNavEnv:
+    global _ENV, _OPTIONS
+    if _ENV is None or _OPTIONS != options:
+        _ENV, _OPTIONS = HearNavEnv(**options), options
+    return _ENV
+
+
+def _valid_action(action) -> int:
+    if isinstance(action, (bool, np.bool_)):
+        raise ValueError(f"policy returned a bool ({action}), expected an integer action in [0, 3]")
+    value = np.asarray(action).reshape(-1)
+    if value.size != 1 or not np.issubdtype(value.dtype, np.number):
+        raise ValueError(f"policy returned {action!r}, expected an integer action in [0, 3]")
+    x = float(value[0])
+    if not math.isfinite(x) or x != int(x) or not 0 <= int(x) < 4:
+        raise ValueError(f"policy returned {action!r}, expected an integer action in [0, 3]")
+    return int(x)
+
+
+def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> dict:
+    """Play one episode and return its result row (status "ok" or "failed")."""
+    t0 = time.perf_counter()
+    privileged = is_privileged(policy)
+    row = {"policy": name, "privileged": privileged, "episode_index": task.index, "episode_seed": task.seed,
+           "oracle_si_sdr_db": task.oracle, "status": "ok", "error": None}
+    obs, info = env.reset(seed=task.seed)
+    row.update(scene=info["scene"], start_si_sdr_db=info["si_sdr_db"], start_mixture_si_sdr_db=info["mixture_si_sdr_db"])
+    start_xy = (info["pose"]["x"], info["pose"]["y"])
+    best, ret, collisions, path, steps = info["si_sdr_db"], 0.0, 0, 0.0, 0
+    audio = [] if task.audio_dir else None
+    try:
+        extra = {"seed": policy_seed(task.seed)}
+        if privileged:
+            extra["privileged"] = env.unwrapped.privileged
+        policy.reset(obs, {**info, **extra})
+        truncated = False
+        while not truncated:
+            action = _valid_action(policy.act(obs, {**info, **extra}))
+            before = (info["pose"]["x"], info["pose"]["y"])
+            obs, reward, _, truncated, info = env.step(action)
+            steps += 1
+            ret += reward
+            collisions += int(info["collided"])
+            path += math.dist(before, (info["pose"]["x"], info["pose"]["y"]))
+            best = max(best, info["si_sdr_db"])
+            if audio is not None:
+                audio.append(env.unwrapped.privileged.last_window())
+    except Exception as exc:  # the policy's fault: record it, never crash the run
+        row.update(status="failed", error=f"{type(exc).__name__}: {exc}".splitlines()[0][:500])
+    final = info["si_sdr_db"]
+    gain = final - row["start_si_sdr_db"]
+    span = None if task.oracle is None else task.oracle - row["start_si_sdr_db"]
+    row.update(final_si_sdr_db=final, best_si_sdr_db=best, gain_db=gain, episode_return=ret,
+               normalized_gain=(gain / span) if span and span > 1e-9 else None,
+               path_length_m=path, steps=steps, collisions=collisions,
+               final_pose=info["pose"], start_xy=list(start_xy),
+               wall_time_s=time.perf_counter() - t0)
+    if audio:
+        from hearnav.bench.audio import save_episode_audio
+
+        save_episode_audio(Path(task.audio_dir), name, task.index, audio, env.fs)
+    return row
+
+
+def _work(args: tuple[dict, Task]) -> dict:
+    options, task = args
+    env = _env(options)
+    name, policy = resolve(task.policy)
+    return run_episode(env, name, policy, task)
+
+
+def _oracle_work(args: tuple[dict, int]) -> tuple[int, float]:
+    options, seed = args
+    return seed, oracle_bound(_env(options), seed)
+
+
+def compute_oracles(suite: Suite, folder: Path, workers: int, progress=None) -> dict[int, float]:
+    """Oracle bounds of every episode of a suite, computed once and cached in ``folder``."""
+    cache = OracleCache(folder, suite.digest())
+    options = suite.env_config().model_dump()
+    missing = [s for s in suite.episode_seeds() if cache.get(s) is None]
+    for seed, value in _map(_oracle_work, [(options, s) for s in missing], workers):
+        cache.put(seed, value)
+        if progress:
+            progress()
+    return {s: cache.get(s) for s in suite.episode_seeds()}
+
+
+def _map(fn, items: list, workers: int):
+    """Results of fn over items, in any order, in this process or a pool of ``workers``."""
+    if workers <= 1 or len(items) <= 1:
+        for item in items:
+            yield fn(item)
+        return
+    import multiprocessing as mp
+
+    with mp.get_context("fork").Pool(workers) as pool:
+        yield from pool.imap_unordered(fn, items)
+
+
+def run_tasks(suite: Suite, tasks: list[Task], workers: int):
+    """Rows of the tasks, as they finish."""
+    options = suite.env_config().model_dump()
+    yield from _map(_work, [(options, t) for t in tasks], workers)

@@ -1,0 +1,278 @@
+"""Honest summaries of benchmark results: means with bootstrap intervals, paired comparisons.
+
+Every interval comes from :func:`scipy.stats.bootstrap` with a seeded generator, so a summary is
+reproducible. Paired comparisons use the episodes both policies finished, matched on ``episode_seed``:
+the interval is a bootstrap over episodes of the per-episode differences, and the p-value is the
+two-sided Wilcoxon signed-rank test (:func:`scipy.stats.wilcoxon`).
+
+Undefined numbers (a mean of nothing, an interval from fewer than two values) are ``None`` in
+:func:`summarise`, :func:`paired_comparison` and :func:`summary`, so their output is valid JSON;
+:func:`bootstrap_ci` itself returns ``(nan, nan)``.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from collections.abc import Iterable, Mapping, Sequence
+from typing import Any
+
+import numpy as np
+from scipy import stats as _st
+
+from hearnav.bench.results import ResultsError
+
+METRICS = ("gain_db", "final_si_sdr_db", "normalized_gain")
+# keys of a summary() that are not policy names
+RESERVED_KEYS = ("comparisons", "reference", "reference_missing")
+
+
+def _clean(values: Iterable[Any]) -> np.ndarray:
+    """``values`` as a float array without ``None``, NaN and infinities, shape ``(n_used,)``."""
+    out = np.array([np.nan if v is None else float(v) for v in values], dtype=float)
+    return out[np.isfinite(out)]
+
+
+def _mean(x: np.ndarray, axis: int = -1) -> np.ndarray:
+    return np.mean(x, axis=axis)
+
+
+def _or_none(x: float) -> float | None:
+    return None if x is None or not math.isfinite(x) else float(x)
+
+
+def bootstrap_ci(values: Sequence[float] | np.ndarray, confidence: float = 0.95, n_resamples: int = 9999,
+                 seed: int = 0) -> tuple[float, float]:
+    """Bootstrap confidence interval of the mean.
+
+    Calls ``scipy.stats.bootstrap((values,), np.mean, method="BCa", confidence_level=confidence,
+    n_resamples=n_resamples, rng=np.random.default_rng(np.random.SeedSequence(seed)))``. BCa (bias-corrected
+    and accelerated) needs a non-zero jackknife spread; when the values are all equal, or BCa fails (raises,
+    warns that it is degenerate, or returns NaN), the percentile interval is computed instead, with a fresh
+    generator from the same seed. Constant values therefore give ``(c, c)``.
+
+    Parameters
+    ----------
+    values : array_like, shape (n,)
+        Finite values; ``None``, NaN and infinities are dropped.
+    confidence : float
+        Confidence level in (0, 1).
+    n_resamples : int
+        Number of bootstrap resamples.
+    seed : int
+        Seed of the :class:`numpy.random.SeedSequence` the generator is drawn from.
+
+    Returns
+    -------
+    tuple[float, float]
+        ``(low, high)``; ``(nan, nan)`` for fewer than two values.
+    """
+    if not 0.0 < confidence < 1.0:
+        raise ResultsError(f"expected a confidence level between 0 and 1, got {confidence!r}: use e.g. 0.95")
+    x = _clean(values)
+    if x.size < 2:
+        return (math.nan, math.nan)
+
+    def run(method: str) -> tuple[float, float]:
+        rng = np.random.default_rng(np.random.SeedSequence(seed))
+        res = _st.bootstrap((x,), _mean, n_resamples=n_resamples, confidence_level=confidence,
+                            method=method, rng=rng, vectorized=True)
+        return float(res.confidence_interval.low), float(res.confidence_interval.high)
+
+    if np.ptp(x) > 0:
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("error", _st.DegenerateDataWarning)
+                warnings.simplefilter("ignore", RuntimeWarning)
+                low, high = run("BCa")
+            if math.isfinite(low) and math.isfinite(high):
+                return low, high
+        except (_st.DegenerateDataWarning, ValueError, FloatingPointError):
+            pass
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", _st.DegenerateDataWarning)
+        return run("percentile")
+
+
+def summarise(values: Iterable[Any], seed: int = 0) -> dict:
+    """Mean and 95 % bootstrap interval of the usable values.
+
+    Parameters
+    ----------
+    values : iterable, length n
+        Numbers; ``None``, NaN and infinities are ignored.
+    seed : int
+        Bootstrap seed (see :func:`bootstrap_ci`).
+
+    Returns
+    -------
+    dict
+        ``{"mean": float | None, "ci95": [low, high] (None where undefined), "n": n_used}``.
+    """
+    x = _clean(values)
+    low, high = bootstrap_ci(x, seed=seed)
+    return {"mean": float(np.mean(x)) if x.size else None, "ci95": [_or_none(low), _or_none(high)],
+            "n": int(x.size)}
+
+
+def paired_comparison(a: Sequence[float] | np.ndarray, b: Sequence[float] | np.ndarray, seed: int = 0) -> dict:
+    """Compare two policies on the same episodes: the mean of ``a - b`` with a CI, and a Wilcoxon p-value.
+
+    Parameters
+    ----------
+    a, b : array_like, shape (n,)
+        Per-episode values, element ``i`` of both from the same episode. Pairs where either is ``None``,
+        NaN or infinite are dropped.
+    seed : int
+        Bootstrap seed (see :func:`bootstrap_ci`).
+
+    Returns
+    -------
+    dict
+        ``{"mean_difference", "ci95": [low, high], "n", "wilcoxon_p"}``: the interval is a bootstrap over
+        episodes of the differences; the p-value is two-sided, 1.0 when every difference is zero and
+        ``None`` for fewer than two pairs (as are undefined means and bounds).
+    """
+    fa = np.array([np.nan if v is None else float(v) for v in a], dtype=float)
+    fb = np.array([np.nan if v is None else float(v) for v in b], dtype=float)
+    if fa.shape != fb.shape or fa.ndim != 1:
+        raise ResultsError(f"expected paired 1-D arrays of equal length, got shapes {fa.shape} and {fb.shape}: "
+                           f"match the episodes before comparing")
+    keep = np.isfinite(fa) & np.isfinite(fb)
+    d = fa[keep] - fb[keep]
+    low, high = bootstrap_ci(d, seed=seed)
+    if d.size < 2:
+        p = None
+    elif not np.any(d):
+        p = 1.0
+    else:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)
+            p = float(_st.wilcoxon(d, alternative="two-sided").pvalue)
+    return {"mean_difference": float(np.mean(d)) if d.size else None, "ci95": [_or_none(low), _or_none(high)],
+            "n": int(d.size), "wilcoxon_p": _or_none(p) if p is not None else None}
+
+
+def _by_policy(rows: Iterable[Mapping[str, Any]]) -> dict[str, dict[int, Mapping[str, Any]]]:
+    """Rows grouped by policy then episode seed, in first-appearance order; a later row for a seed wins."""
+    grouped: dict[str, dict[int, Mapping[str, Any]]] = {}
+    for index, row in enumerate(rows):
+        if "policy" not in row or "episode_seed" not in row:
+            raise ResultsError(f"row {index}: expected keys 'policy' and 'episode_seed', got {sorted(row)}: "
+                               f"the rows were not written by this benchmark")
+        if str(row["policy"]) in RESERVED_KEYS:
+            raise ResultsError(f"row {index}: expected a policy name other than {', '.join(RESERVED_KEYS)}, "
+                               f"got {row['policy']!r}: register the policy under another name")
+        grouped.setdefault(str(row["policy"]), {})[int(row["episode_seed"])] = row
+    return grouped
+
+
+def summary(rows: Iterable[Mapping[str, Any]], metrics: Sequence[str] = METRICS, reference: str = "still",
+            seed: int = 0) -> dict:
+    """Per-policy results and paired comparisons against a reference policy.
+
+    Parameters
+    ----------
+    rows : iterable of dict
+        Episode rows with ``policy``, ``episode_seed``, ``status`` and, for ``status == "ok"``, the metrics.
+        If a policy has several rows for one seed, the last one counts.
+    metrics : sequence of str
+        Metrics to summarise; only rows with ``status == "ok"`` contribute.
+    reference : str
+        Policy the others are compared with, on ``gain_db``, over seeds both finished ``"ok"``.
+    seed : int
+        Bootstrap seed.
+
+    Returns
+    -------
+    dict
+        One entry per policy, in order of first appearance, ``name: {"episodes", "ok", "failures",
+        "privileged", metric: summarise(...), ...}`` (``episodes`` counts every row, ``ok`` and ``failures``
+        those with that status), plus the keys in :data:`RESERVED_KEYS`: ``"comparisons": {name:
+        paired_comparison(policy gain_db, reference gain_db)}``, ``"reference": reference`` and
+        ``"reference_missing"``: true (and ``comparisons`` empty) when no row is from ``reference``.
+        Use :func:`policy_entries` to iterate over the policies alone.
+    """
+    grouped = _by_policy(rows)
+    policies: dict[str, dict] = {}
+    for name, by_seed in grouped.items():
+        ok = [r for r in by_seed.values() if r.get("status") == "ok"]
+        entry: dict[str, Any] = {
+            "episodes": len(by_seed),
+            "ok": len(ok),
+            "failures": sum(1 for r in by_seed.values() if r.get("status") == "failed"),
+            "privileged": any(bool(r.get("privileged", False)) for r in by_seed.values()),
+        }
+        for metric in metrics:
+            entry[metric] = summarise((r.get(metric) for r in ok), seed=seed)
+        policies[name] = entry
+
+    comparisons: dict[str, dict] = {}
+    if reference in grouped:
+        ref_ok = {s: r for s, r in grouped[reference].items() if r.get("status") == "ok"}
+        for name, by_seed in grouped.items():
+            if name == reference:
+                continue
+            seeds = sorted(s for s, r in by_seed.items() if r.get("status") == "ok" and s in ref_ok)
+            a = [by_seed[s].get("gain_db") for s in seeds]
+            b = [ref_ok[s].get("gain_db") for s in seeds]
+            comparisons[name] = paired_comparison(a, b, seed=seed)
+    return {**policies, "comparisons": comparisons, "reference": reference,
+            "reference_missing": reference not in grouped}
+
+
+def policy_entries(result: Mapping[str, Any]) -> dict[str, dict]:
+    """The per-policy entries of a :func:`summary` (everything but :data:`RESERVED_KEYS`), in order."""
+    return {k: v for k, v in result.items() if k not in RESERVED_KEYS}
+
+
+def _num(x: float | None, fmt: str = "{:.2f}") -> str:
+    return "n/a" if x is None else fmt.format(x)
+
+
+def _mean_ci(s: Mapping[str, Any] | None, mean_key: str = "mean") -> str:
+    if not s or s.get(mean_key) is None:
+        return "n/a"
+    low, high = s["ci95"]
+    return f"{_num(s[mean_key])} [{_num(low)}, {_num(high)}]"
+
+
+def format_table(result: Mapping[str, Any]) -> str:
+    """A plain-text table of a :func:`summary`.
+
+    Columns: policy, privileged, n (episodes finished ``"ok"``), failures, then mean [95 % CI] of
+    gain dB, final SI-SDR dB and normalized gain, then the paired difference in gain dB against the
+    reference (mean [CI]), the number of episode pairs it uses, and its Wilcoxon p-value. Undefined numbers
+    print as ``n/a``.
+
+    Parameters
+    ----------
+    result : dict
+        The output of :func:`summary`.
+
+    Returns
+    -------
+    str
+        Lines separated by ``"\\n"``, no trailing newline.
+    """
+    reference = result.get("reference", "still")
+    header = ["policy", "privileged", "n", "failures", "gain dB", "final SI-SDR dB", "normalized gain",
+              f"vs {reference}: diff dB", "pairs", "p"]
+    body: list[list[str]] = []
+    for name, entry in policy_entries(result).items():
+        comp = result.get("comparisons", {}).get(name)
+        if name == reference:
+            vs, pairs, p = "(reference)", "", ""
+        elif comp is None:
+            vs, pairs, p = "n/a", "0", "n/a"
+        else:
+            vs, pairs = _mean_ci(comp, "mean_difference"), str(comp["n"])
+            p = _num(comp["wilcoxon_p"], "{:.3g}")
+        body.append([name, "yes" if entry["privileged"] else "no", str(entry["ok"]), str(entry["failures"]),
+                     *(_mean_ci(entry.get(m)) for m in METRICS), vs, pairs, p])
+    widths = [max(len(row[i]) for row in [header, *body]) for i in range(len(header))]
+    lines = ["  ".join(cell.ljust(w) for cell, w in zip(row, widths)).rstrip() for row in [header, *body]]
+    lines.insert(1, "  ".join("-" * w for w in widths))
+    if result.get("reference_missing"):
+        lines.append(f"(no rows from reference policy {reference!r}: no comparisons)")
+    return "\n".join(lines)

@@ -1,0 +1,79 @@
+"""Benchmark suites: fixed episodes, each drawn by the environment from a seed derived with SeedSequence.
+
+Every policy faces the same episodes (a paired design). Episode k of a suite uses the k-th child of
+``SeedSequence(suite.seed)``; the policy's own randomness uses a child of that episode's seed. Nothing depends
+on the worker count or the order in which episodes run.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from pathlib import Path
+
+import numpy as np
+import yaml
+from pydantic import BaseModel, ConfigDict, Field, ValidationError
+
+from hearnav.env.config import EnvConfig, make_config
+from hearnav.errors import ConfigError, did_you_mean
+
+SUITE_DIR = Path(__file__).resolve().parents[2] / "configs" / "suites"
+
+
+class Suite(BaseModel):
+    """A named, seeded set of episodes and the environment options they use."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+    name: str = Field(min_length=1)
+    description: str = ""
+    episodes: int = Field(ge=1, le=100000)
+    seed: int = Field(ge=0)
+    env: dict = Field(default_factory=dict)
+
+    def env_config(self) -> EnvConfig:
+        """The environment options of the suite, validated."""
+        return make_config(self.env)
+
+    def episode_seeds(self) -> list[int]:
+        """One seed per episode, from SeedSequence(seed).spawn(episodes)."""
+        return [int(child.generate_state(1, np.uint64)[0] % (2**63)) for child in
+                np.random.SeedSequence(self.seed).spawn(self.episodes)]
+
+    def digest(self) -> str:
+        """Hash of everything that defines the episodes."""
+        payload = json.dumps({"suite": self.model_dump(), "env": self.env_config().model_dump(mode="json")},
+                             sort_keys=True)
+        return hashlib.sha256(payload.encode()).hexdigest()[:16]
+
+
+def policy_seed(episode_seed: int) -> int:
+    """The seed a policy gets for its own randomness in an episode."""
+    return int(np.random.SeedSequence([episode_seed, 1]).generate_state(1)[0])
+
+
+def suite_names() -> list[str]:
+    """Bundled suites (configs/suites/*.yaml)."""
+    return sorted(p.stem for p in SUITE_DIR.glob("*.yaml"))
+
+
+def load_suite(name_or_path: str) -> Suite:
+    """A suite by bundled name or YAML path."""
+    path = Path(name_or_path)
+    if not path.suffix:
+        path = SUITE_DIR / f"{name_or_path}.yaml"
+    if not path.is_file():
+        raise ConfigError(f"suite {name_or_path!r} not found (expected a YAML file or one of "
+                          f"{', '.join(suite_names())}); {did_you_mean(str(name_or_path), suite_names())}")
+    try:
+        data = yaml.safe_load(path.read_text(encoding="utf-8"))
+        suite = Suite.model_validate(data)
+    except yaml.YAMLError as exc:
+        raise ConfigError(f"{path}: not valid YAML ({str(exc).splitlines()[0]})") from None
+    except ValidationError as exc:
+        first = exc.errors(include_url=False)[0]
+        raise ConfigError(f"{path}: {'.'.join(map(str, first['loc']))}: {first['msg']} "
+                          f"(got {str(first.get('input'))[:60]})") from None
+    suite.env_config()  # validate the options now
+    return suite

@@ -1,0 +1,168 @@
+"""Benchmark statistics, checked against scipy.stats.bootstrap and scipy.stats.wilcoxon (reference implementations)."""
+
+from __future__ import annotations
+
+import math
+import re
+
+import numpy as np
+import pytest
+from scipy import stats
+
+from hearnav.bench.results import ResultsError
+from hearnav.bench.stats import bootstrap_ci, format_table, paired_comparison, policy_entries, summarise, summary
+
+
+def scipy_ci(x, method: str, seed: int = 0, confidence: float = 0.95, n_resamples: int = 9999):
+    """scipy.stats.bootstrap called directly (the reference implementation)."""
+    rng = np.random.default_rng(np.random.SeedSequence(seed))
+    ci = stats.bootstrap((np.asarray(x, float),), np.mean, n_resamples=n_resamples, confidence_level=confidence,
+                         method=method, rng=rng).confidence_interval
+    return ci.low, ci.high
+
+
+def test_bootstrap_ci_equals_scipy_bootstrap():
+    x = np.random.default_rng(7).gamma(2.0, 1.5, size=40)
+    assert bootstrap_ci(x, seed=3) == pytest.approx(scipy_ci(x, "BCa", seed=3), rel=1e-12)
+    assert bootstrap_ci(x, confidence=0.9, n_resamples=2000, seed=5) == pytest.approx(
+        scipy_ci(x, "BCa", seed=5, confidence=0.9, n_resamples=2000), rel=1e-12)
+    assert bootstrap_ci(x, seed=1) != bootstrap_ci(x, seed=2)  # the seed is used
+    low, high = bootstrap_ci(x)
+    assert low < x.mean() < high
+
+
+def test_bootstrap_ci_constant_values_fall_back_to_percentile():
+    # BCa is undefined for constant data (scipy returns NaN with a DegenerateDataWarning)
+    assert bootstrap_ci([2.5] * 10) == (2.5, 2.5)
+    assert bootstrap_ci([2.5] * 10) == pytest.approx(scipy_ci([2.5] * 10, "percentile"))
+
+
+def test_bootstrap_ci_needs_two_values():
+    for values in ([], [1.0], [1.0, float("nan")]):
+        low, high = bootstrap_ci(values)
+        assert math.isnan(low) and math.isnan(high)
+    with pytest.raises(ResultsError, match="expected a confidence level between 0 and 1, got 95"):
+        bootstrap_ci([1.0, 2.0], confidence=95)
+
+
+def test_bootstrap_ci_covers_the_mean_of_a_normal_sample_at_the_nominal_rate():
+    # common practice: a 95 % interval for the mean of n = 50 normal draws covers the true mean ~95 % of the time
+    rng = np.random.default_rng(11)
+    covered = sum(lo <= 0.0 <= hi for lo, hi in (bootstrap_ci(rng.normal(0, 1, 50), n_resamples=999, seed=i)
+                                                 for i in range(200)))
+    assert 0.88 <= covered / 200 <= 0.99
+
+
+def test_summarise_ignores_none_and_nan():
+    s = summarise([1.0, None, 3.0, float("nan"), 2.0, float("inf")])
+    assert s["n"] == 3 and s["mean"] == pytest.approx(2.0)
+    assert s["ci95"] == pytest.approx(list(scipy_ci([1.0, 3.0, 2.0], "BCa")))
+    assert summarise([None, float("nan")]) == {"mean": None, "ci95": [None, None], "n": 0}
+    assert summarise([4.0]) == {"mean": 4.0, "ci95": [None, None], "n": 1}
+
+
+def test_paired_comparison_recovers_a_known_shift():
+    rng = np.random.default_rng(0)
+    a = rng.normal(5.0, 3.0, size=200)  # wide spread between episodes ...
+    b = a + 1.5 + rng.normal(0.0, 0.1, size=200)  # ... but a consistent paired shift
+    result = paired_comparison(b, a)
+    assert result["n"] == 200
+    assert result["mean_difference"] == pytest.approx(1.5, abs=0.03)
+    low, high = result["ci95"]
+    assert low < 1.5 < high and high - low < 0.1
+    assert result["wilcoxon_p"] < 1e-30
+    assert result["wilcoxon_p"] == pytest.approx(stats.wilcoxon(b - a).pvalue)  # reference implementation
+    assert result["ci95"] == pytest.approx(list(scipy_ci(b - a, "BCa")))  # a bootstrap of the differences
+    flipped = paired_comparison(a, b)
+    assert flipped["mean_difference"] == pytest.approx(-result["mean_difference"])
+
+
+def test_paired_comparison_no_shift_is_not_significant():
+    rng = np.random.default_rng(1)
+    a = rng.normal(0, 1, 200)
+    b = a + rng.normal(0, 0.5, 200)
+    assert paired_comparison(a, b)["wilcoxon_p"] > 0.01
+
+
+def test_paired_comparison_identical_samples():
+    a = np.random.default_rng(2).normal(size=30)
+    result = paired_comparison(a, a.copy())
+    assert result == {"mean_difference": 0.0, "ci95": [0.0, 0.0], "n": 30, "wilcoxon_p": 1.0}
+
+
+def test_paired_comparison_small_and_bad_input():
+    assert paired_comparison([1.0], [0.0]) == {"mean_difference": 1.0, "ci95": [None, None], "n": 1,
+                                               "wilcoxon_p": None}
+    assert paired_comparison([1.0, None, 3.0], [0.0, 1.0, float("nan")])["n"] == 1  # pairs dropped together
+    with pytest.raises(ResultsError, match=r"equal length, got shapes \(2,\) and \(3,\)"):
+        paired_comparison([1.0, 2.0], [1.0, 2.0, 3.0])
+
+
+def ep(policy, seed, status="ok", gain=None, final=None, norm=None, privileged=False, **extra):
+    return {"policy": policy, "episode_seed": seed, "status": status, "gain_db": gain, "final_si_sdr_db": final,
+            "normalized_gain": norm, "privileged": privileged, **extra}
+
+
+ROWS = [
+    ep("still", 1, gain=0.0, final=-5.0, norm=0.0),
+    ep("still", 2, gain=1.0, final=-4.0, norm=0.1),
+    ep("still", 3, gain=2.0, final=-3.0, norm=0.2),
+    ep("still", 4, status="failed"),
+    ep("walker", 1, gain=3.0, final=-2.0, norm=0.5),
+    ep("walker", 2, status="failed", gain=100.0, final=100.0, norm=100.0),  # failed rows never count
+    ep("walker", 3, gain=5.0, final=0.0, norm=0.7),
+    ep("walker", 4, gain=9.0, final=4.0, norm=0.9),  # the reference failed here: not paired
+    ep("walker", 5, gain=7.0, final=2.0, norm=0.8),  # the reference has no row: not paired
+    ep("oracle", 1, gain=10.0, final=5.0, norm=1.0, privileged=True),
+    ep("oracle", 2, gain=11.0, final=6.0, norm=1.0, privileged=True),
+]
+
+
+def test_summary_counts_failures_and_excludes_them_from_means():
+    s = summary(ROWS)
+    assert list(s) == ["still", "walker", "oracle", "comparisons", "reference", "reference_missing"]
+    assert list(policy_entries(s)) == ["still", "walker", "oracle"]
+    walker = s["walker"]
+    assert (walker["episodes"], walker["ok"], walker["failures"], walker["privileged"]) == (5, 4, 1, False)
+    assert walker["gain_db"]["n"] == 4 and walker["gain_db"]["mean"] == pytest.approx(6.0)
+    assert walker["final_si_sdr_db"]["mean"] == pytest.approx(1.0)
+    assert walker["normalized_gain"]["mean"] == pytest.approx(0.725)
+    assert s["still"]["failures"] == 1 and s["still"]["gain_db"]["mean"] == pytest.approx(1.0)
+    assert s["oracle"]["privileged"] is True
+    assert s["reference_missing"] is False
+
+
+def test_summary_pairs_on_seeds_both_finished():
+    s = summary(ROWS)
+    assert set(s["comparisons"]) == {"walker", "oracle"}
+    walker = s["comparisons"]["walker"]  # seeds 1 and 3 only: 3 - 0 and 5 - 2
+    assert walker["n"] == 2 and walker["mean_difference"] == pytest.approx(3.0)
+    assert walker == paired_comparison([3.0, 5.0], [0.0, 2.0])
+    oracle = s["comparisons"]["oracle"]  # seeds 1 and 2: 10 - 0 and 11 - 1
+    assert oracle["n"] == 2 and oracle["ci95"] == [10.0, 10.0] and oracle["wilcoxon_p"] is not None
+
+
+def test_summary_without_reference():
+    s = summary([r for r in ROWS if r["policy"] != "still"])
+    assert s["comparisons"] == {} and s["reference_missing"] is True
+    assert summary(ROWS, reference="walker")["comparisons"]["still"]["mean_difference"] == pytest.approx(-3.0)
+    with pytest.raises(ResultsError, match="row 0: expected keys 'policy' and 'episode_seed'"):
+        summary([{"status": "ok"}])
+    with pytest.raises(ResultsError, match="row 0: expected a policy name other than comparisons, reference"):
+        summary([ep("comparisons", 1, gain=1.0)])
+
+
+def test_format_table():
+    text = format_table(summary(ROWS))
+    lines = text.split("\n")
+    assert lines[0].split("  ")[0] == "policy" and "vs still: diff dB" in lines[0]
+    assert set(lines[1]) <= {"-", " "}
+    walker = re.split(r"\s{2,}", next(line for line in lines if line.startswith("walker")))
+    assert walker[:4] == ["walker", "no", "4", "1"]  # 4 ok episodes, 1 failure
+    assert walker[4].startswith("6.00 [") and walker[7:] == ["3.00 [3.00, 3.00]", "2", "0.5"]
+    still = next(line for line in lines if line.startswith("still"))
+    assert "(reference)" in still
+    oracle = next(line for line in lines if line.startswith("oracle"))
+    assert " yes " in oracle and "10.00 [10.00, 10.00]" in oracle
+    missing = format_table(summary([r for r in ROWS if r["policy"] == "walker"]))
+    assert "no rows from reference policy 'still'" in missing and "n/a" in missing
