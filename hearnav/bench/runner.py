@@ -123,7 +123,7 @@ def compute_oracles(suite: Suite, folder: Path, workers: int, progress=None) -> 
     return {s: cache.get(s) for s in suite.episode_seeds()}
 
 
-def _map(fn, items: list, workers: int):
+def _map(fn, items: list, workers: int, chunksize: int = 1):
     """Results of fn over items, in any order, in this process or a pool of ``workers``."""
     if workers <= 1 or len(items) <= 1:
         for item in items:
@@ -132,10 +132,13 @@ def _map(fn, items: list, workers: int):
     import multiprocessing as mp
 
     with mp.get_context("fork").Pool(workers) as pool:
-        yield from pool.imap_unordered(fn, items)
+        yield from pool.imap_unordered(fn, items, chunksize=chunksize)
 
 
 def run_tasks(suite: Suite, tasks: list[Task], workers: int):
-    """Rows of the tasks, as they finish."""
+    """Rows of the tasks, as they finish. Tasks of one episode go to one worker together, so the episode's
+    sounds are generated once for all policies."""
     options = suite.env_config().model_dump()
-    yield from _map(_work, [(options, t) for t in tasks], workers)
+    ordered = sorted(tasks, key=lambda t: (t.index, t.policy))
+    per_episode = max(1, len({t.policy for t in tasks}))
+    yield from _map(_work, [(options, t) for t in ordered], workers, chunksize=per_episode)
