@@ -78,7 +78,8 @@ def run(args) -> int:
     rows = results.read_rows(rows_path)
     summary = stats.summary(rows, reference=args.reference)
     summary_doc = {"suite": suite.name, "suite_hash": suite.digest(), "code_version": code_version(),
-                   "reference": args.reference, "policies": summary}
+                   "reference": args.reference, "reference_missing": summary.get("reference_missing", False),
+                   "policies": stats.policy_entries(summary), "comparisons": summary.get("comparisons", {})}
     _write_json(out / "summary.json", summary_doc)
     print(stats.format_table(summary))
     failed = sum(1 for r in rows if r.get("status") == "failed")

@@ -48,7 +48,13 @@ def test_rows_summary_and_resume(suite_file, tmp_path, capsys):
                   "collisions", "status", "error"):
         assert all(field in r for r in rows), field
     summary = json.loads((out / "summary.json").read_text())
-    assert set(summary["policies"]) >= {"still", "random-walk"}
+    assert set(summary["policies"]) == {"still", "random-walk"}
+    for entry in summary["policies"].values():
+        assert entry["episodes"] == 3 and entry["failures"] == 0
+        for metric in ("gain_db", "final_si_sdr_db", "normalized_gain"):
+            assert set(entry[metric]) == {"mean", "ci95", "n"}
+    comparison = summary["comparisons"]["random-walk"]
+    assert set(comparison) >= {"mean_difference", "ci95", "wilcoxon_p"}
     # rerunning the same command resumes: nothing is run twice
     assert _bench(suite_file, out, "still", "random-walk") == 0
     assert len(_rows(out)) == 6
