@@ -196,7 +196,8 @@ def summary(rows: Iterable[Mapping[str, Any]], metrics: Sequence[str] = METRICS,
     grouped = _by_policy(rows)
     policies: dict[str, dict] = {}
     for name, by_seed in grouped.items():
-        ok = [r for r in by_seed.values() if r.get("status") == "ok"]
+        # episodes in seed order, so the bootstrap does not depend on the order rows were written in
+        ok = [by_seed[k] for k in sorted(by_seed) if by_seed[k].get("status") == "ok"]
         entry: dict[str, Any] = {
             "episodes": len(by_seed),
             "ok": len(ok),
