@@ -57,7 +57,8 @@ def run(args) -> int:
     if args.save_audio < 0:
         raise ConfigError(f"--save-audio must be 0 or more (got {args.save_audio})")
     suite = load_suite(args.suite)
-    names = [resolve(ref)[0] for ref in args.policy]  # unknown names fail here, in one line
+    for ref in args.policy:  # unknown names fail here, in one line, before any work
+        resolve(ref)
     out: Path = args.out
     out.mkdir(parents=True, exist_ok=True)
     results.check_manifest(out, {"suite": suite.name, "suite_hash": suite.digest(), "code_version": code_version()})

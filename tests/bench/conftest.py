@@ -6,9 +6,10 @@ import pytest
 import yaml
 
 from tests.conftest import shoebox_dict
-from tests.env.conftest import FAST_ACOUSTICS, small_scene
+from tests.env.conftest import small_scene
+from tests.world_fixtures import ROOM, env_cache, make_env, private_cache  # noqa: F401
 
-ROOM, ANECHOIC = "env-test-room", "bench-test-anechoic"
+ANECHOIC = "bench-test-anechoic"
 
 
 def anechoic_scene() -> dict:
@@ -24,32 +25,3 @@ def scene_dir(tmp_path_factory):
     (folder / f"{ROOM}.yaml").write_text(yaml.safe_dump(small_scene()))
     (folder / f"{ANECHOIC}.yaml").write_text(yaml.safe_dump(anechoic_scene()))
     return folder
-
-
-@pytest.fixture(scope="session")
-def env_cache(tmp_path_factory):
-    return tmp_path_factory.mktemp("bench-cache")
-
-
-@pytest.fixture(autouse=True)
-def private_cache(env_cache, scene_dir, monkeypatch):
-    """Baseline tests share one cache (each world is built once) and see the two small scenes."""
-    monkeypatch.setenv("HEARNAV_CACHE", str(env_cache))
-    monkeypatch.setenv("HEARNAV_SCENES", str(scene_dir))
-    from hearnav.scene.library import clear_cache
-
-    clear_cache()
-    return env_cache
-
-
-@pytest.fixture
-def make_env():
-    from hearnav.env import HearNavEnv
-
-    def factory(**options):
-        options.setdefault("scenes", [ROOM])
-        options.setdefault("acoustics", FAST_ACOUSTICS)
-        options.setdefault("budget", 6)
-        return HearNavEnv(**options)
-
-    return factory

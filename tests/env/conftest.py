@@ -6,8 +6,7 @@ import pytest
 import yaml
 
 from tests.conftest import shoebox_dict
-
-FAST_ACOUSTICS = {"ism_order": 2, "n_rays": 400, "max_response_s": 0.25}
+from tests.world_fixtures import FAST_ACOUSTICS, env_cache, make_env, private_cache  # noqa: F401
 
 
 def small_scene() -> dict:
@@ -31,32 +30,3 @@ def scene_dir(tmp_path_factory):
     folder = tmp_path_factory.mktemp("scenes")
     (folder / "env-test-room.yaml").write_text(yaml.safe_dump(small_scene()))
     return folder
-
-
-@pytest.fixture(scope="session")
-def env_cache(tmp_path_factory):
-    return tmp_path_factory.mktemp("env-cache")
-
-
-@pytest.fixture(autouse=True)
-def private_cache(env_cache, scene_dir, monkeypatch):
-    """Environment tests share one cache (the world is built once) and see the small scene."""
-    monkeypatch.setenv("HEARNAV_CACHE", str(env_cache))
-    monkeypatch.setenv("HEARNAV_SCENES", str(scene_dir))
-    from hearnav.scene.library import clear_cache
-
-    clear_cache()
-    return env_cache
-
-
-@pytest.fixture
-def make_env():
-    from hearnav.env import HearNavEnv
-
-    def factory(**options):
-        options.setdefault("scenes", ["env-test-room"])
-        options.setdefault("acoustics", FAST_ACOUSTICS)
-        options.setdefault("budget", 6)
-        return HearNavEnv(**options)
-
-    return factory
