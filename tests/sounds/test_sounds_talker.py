@@ -1,4 +1,4 @@
-"""The talker: pitch, syllable rhythm, pauses, consonants and voice differences."""
+"""Talker sounds: pitch, syllable rhythm, pauses, consonants and voice differences."""
 
 from __future__ import annotations
 
