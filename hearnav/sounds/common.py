@@ -62,6 +62,19 @@ def table_rng(category: str, pool: str) -> np.random.Generator:
     return np.random.default_rng(np.random.SeedSequence(words))
 
 
+def voice_columns(category: str, pool: str, n: int,
+                  ranges: dict[str, tuple[tuple[float, float], ...]]) -> list[dict[str, float]]:
+    """Parameters of a pool's ``n`` voices: each key of ``ranges`` spread over its ranges (in key order).
+
+    Returns
+    -------
+    One ``{key: value}`` dict per voice.
+    """
+    rng = table_rng(category, pool)
+    columns = {key: spread(rng, n, r) for key, r in ranges.items()}
+    return [{key: float(col[i]) for key, col in columns.items()} for i in range(n)]
+
+
 def n_samples(duration_s: float, fs: int) -> int:
     """Number of samples of a sound of ``duration_s`` seconds at ``fs`` Hz: ``round(duration_s * fs)``."""
     return int(round(duration_s * fs))

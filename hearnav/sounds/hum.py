@@ -13,7 +13,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from hearnav.sounds.common import check_pool, n_samples, spread, table_rng, take_rng
+from hearnav.sounds.common import check_pool, n_samples, take_rng, voice_columns
 from hearnav.sounds.dsp import harmonic_sum, phase_cycles, random_curve, shaped_noise
 
 NAME = "hum"
@@ -70,12 +70,8 @@ POOL_SIZES = {"seen": 6, "unseen": 4}
 def voices(pool: str) -> tuple[HumVoice, ...]:
     """The fixed voices of a pool, alternating 50 Hz and 60 Hz mains."""
     check_pool(pool)
-    rng = table_rng(NAME, pool)
-    n = POOL_SIZES[pool]
-    columns = {key: spread(rng, n, ranges) for key, ranges in POOL_RANGES[pool].items()}
-    return tuple(
-        HumVoice(MAINS_HZ[i % 2], **{key: float(col[i]) for key, col in columns.items()}) for i in range(n)
-    )
+    table = voice_columns(NAME, pool, POOL_SIZES[pool], POOL_RANGES[pool])
+    return tuple(HumVoice(MAINS_HZ[i % 2], **v) for i, v in enumerate(table))
 
 
 def _unit_rms(x: np.ndarray) -> np.ndarray:

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from hearnav.sounds.common import check_pool, n_samples, spread, table_rng, take_rng
+from hearnav.sounds.common import check_pool, n_samples, take_rng, voice_columns
 from hearnav.sounds.dsp import cosine_interp, shaped_noise
 from hearnav.sounds.formant import BANDWIDTHS_HZ, resonator_sos, time_varying_filter, vowel_table
 from hearnav.sounds.glottal import excitation_rms, glottal_excitation
@@ -85,10 +85,7 @@ POOL_SIZES = {"seen": 12, "unseen": 6}
 def voices(pool: str) -> tuple[TalkerVoice, ...]:
     """The fixed voices of a pool (``"seen"``: 12, ``"unseen"``: 6)."""
     check_pool(pool)
-    rng = table_rng(NAME, pool)
-    n = POOL_SIZES[pool]
-    columns = {key: spread(rng, n, ranges) for key, ranges in POOL_RANGES[pool].items()}
-    return tuple(TalkerVoice(**{key: float(col[i]) for key, col in columns.items()}) for i in range(n))
+    return tuple(TalkerVoice(**v) for v in voice_columns(NAME, pool, POOL_SIZES[pool], POOL_RANGES[pool]))
 
 
 @dataclass(frozen=True)
