@@ -24,6 +24,10 @@ from hearnav.errors import ConfigError
 FADE_S = 0.02
 #: Default memory budget of the response-spectrum cache, bytes.
 SPECTRA_BYTES = 512 * 2**20
+#: Rows pocketfft transforms together (float32 vector width): the render pads its row counts to multiples.
+ROW_BLOCK = 4
+#: Bytes per frequency bin of a precomputed response spectrum, by precision.
+_BYTES_PER_BIN = {"single": 8, "half": 4}
 
 
 @dataclass(frozen=True)
@@ -71,43 +75,50 @@ class ListeningWorld:
         """Dry samples each source needs for ``n_windows`` windows starting at :attr:`warmup`."""
         return self.warmup + n_windows * self.window + self.fade
 
-    @property
-    def table_bytes(self) -> int:
-        """Memory that :meth:`precompute` needs: every response spectrum in half precision."""
+    def table_bytes(self, precision: str = "single") -> int:
+        """Memory that :meth:`precompute` needs for every response spectrum, in single or half precision."""
         c, h, s = self.responses.early.shape[:3]
-        return c * h * s * 2 * (self.n_fft // 2 + 1) * 4
+        return c * h * s * 2 * (self.n_fft // 2 + 1) * _BYTES_PER_BIN[_check_precision(precision)]
 
-    def precompute(self) -> None:
-        """Compute every response spectrum once and keep them (half precision), so no step pays an FFT for one."""
+    def precompute(self, precision: str = "single") -> None:
+        """Compute every response spectrum once and keep them, so no step pays an FFT for one.
+
+        ``"single"`` keeps complex64 spectra, ready to multiply; ``"half"`` keeps them in float16 at half the
+        memory, converted back on every use.
+        """
         c, h, s = self.responses.early.shape[:3]
         n_bins = self.n_fft // 2 + 1
-        table = np.empty((c, h, s, 2, n_bins, 2), np.float16)
+        half = _check_precision(precision) == "half"
+        table = np.empty((c, h, s, 2, n_bins, 2), np.float16) if half else np.empty((c, h, s, 2, n_bins), np.complex64)
         for cell in range(c):
             resp = np.repeat(self.responses.tail[cell][None].astype(np.float32), h, axis=0)  # (H, S, 2, L)
             resp[..., : self.responses.early.shape[-1]] += self.responses.early[cell].astype(np.float32)
             spec = sfft.rfft(resp, self.n_fft, axis=-1).astype(np.complex64)
-            table[cell] = spec.view(np.float32).reshape(h, s, 2, n_bins, 2)
+            table[cell] = spec.view(np.float32).reshape(h, s, 2, n_bins, 2) if half else spec
         self._table = table
 
     def spectrum(self, cell: int, heading: int, spot: int) -> np.ndarray:
         """(2, F) complex64 spectrum of a response: from the precomputed table, else a bounded LRU cache."""
         if self._table is not None:
-            return self._table[cell, heading, spot].astype(np.float32).view(np.complex64)[..., 0]
+            entry = self._table[cell, heading, spot]
+            return entry if entry.dtype == np.complex64 else entry.astype(np.float32).view(np.complex64)[..., 0]
         key = (cell, heading, spot)
         spec = self._spectra.get(key)
         if spec is None:
             spec = sfft.rfft(self.responses.response(cell, heading, spot), self.n_fft, axis=-1).astype(np.complex64)
-            self._spectra[key] = spec
-            if len(self._spectra) > self._max_spectra:
-                self._spectra.popitem(last=False)
+            self._remember(key, spec)
         else:
             self._spectra.move_to_end(key)
         return spec
 
     def segment_spectra(self, sources: list[Source], start: int) -> np.ndarray:
-        """(n_sources, F) spectra of each dry signal over [start - history, start + span)."""
+        """(R, F) spectra of each dry signal over [start - history, start + span); rows past the sources are zero.
+
+        R is the number of sources rounded up to a multiple of :data:`ROW_BLOCK`: pocketfft transforms that
+        many float32 rows together with vector instructions, so four rows cost about as much as one.
+        """
         lo, hi = start - self.history, start + self.span
-        segs = np.zeros((len(sources), self.n_fft), np.float32)
+        segs = np.zeros((_rows(len(sources)), self.n_fft), np.float32)
         for i, src in enumerate(sources):
             a, b = max(lo, 0), min(hi, len(src.signal))
             if b > a:
@@ -116,39 +127,88 @@ class ListeningWorld:
 
     def render(self, cell: int, heading: int, sources: list[Source], start: int, target: int = 0,
                all_images: bool = False, seg: np.ndarray | None = None, target_image: bool = True) -> Window:
-        """The span [start, start + window + fade) heard at a pose, with no cross-fade."""
+        """The span [start, start + window + fade) heard at a pose, with no cross-fade.
+
+        The mixture (2 rows), the reference (1) and the target image (2, when asked for) come out of one
+        inverse FFT of a row block.
+        """
         seg = self.segment_spectra(sources, start) if seg is None else seg
         keep = slice(self.history, self.history + self.span)
+        n = 3 + 2 * bool(target_image)
+        out = np.empty((_rows(n), self.n_fft // 2 + 1), np.complex64)
+        out[n:] = 0  # padding rows
+        np.multiply(seg[target], self.spectrum(cell, heading, sources[target].spot), out=out[0:2])
+        if target_image:
+            out[3:5] = out[0:2]
+        for i, s in enumerate(sources):
+            if i != target:
+                out[0:2] += seg[i] * self.spectrum(cell, heading, s.spot)
+        ref_spec = self.reference_spectrum(cell, sources[target].spot)
+        if ref_spec is not None:
+            np.multiply(seg[target], ref_spec, out=out[2])
+        else:
+            out[2] = 0
+        rows = sfft.irfft(out, self.n_fft, axis=-1)[:n, keep]
+        ref = rows[2] if ref_spec is not None else self.reference(cell, sources[target], start)
+        images = None
         if all_images:
             per_source = np.stack([seg[i] * self.spectrum(cell, heading, s.spot) for i, s in enumerate(sources)])
-            total, target_spec = per_source.sum(axis=0), per_source[target]
+            images = sfft.irfft(per_source, self.n_fft, axis=-1)[..., keep]
+        return Window(start, rows[0:2], rows[3:5] if target_image else None, ref, images)
+
+    def _reference_filter(self, cell: int, spot: int) -> tuple[int, np.ndarray]:
+        """First tap and (FD_TAPS,) taps of the reference filter: the earliest path's gain and delay plus the lead."""
+        delay = float(self.responses.first_delay[cell, spot]) * self.fs + self.responses.lead
+        first, taps = fd_taps(np.asarray(delay))
+        return int(first), float(self.responses.first_gain[cell, spot]) * taps
+
+    def reference_spectrum(self, cell: int, spot: int) -> np.ndarray | None:
+        """(F,) complex64 spectrum of the reference filter on the render's FFT grid (cached), or None when the
+        filter reaches past the render's history (the reference is then filtered in the time domain)."""
+        key = (cell, -1, spot)
+        spec = self._spectra.get(key)
+        if spec is None:
+            first, taps = self._reference_filter(cell, spot)
+            if first < 0 or first + FD_TAPS > self.history + 1:
+                return None
+            h = np.zeros(self.n_fft, np.float32)
+            h[first : first + FD_TAPS] = taps
+            spec = sfft.rfft(h).astype(np.complex64)
+            self._remember(key, spec)
         else:
-            target_spec = seg[target] * self.spectrum(cell, heading, sources[target].spot)
-            total = target_spec.copy()
-            for i, s in enumerate(sources):
-                if i != target:
-                    total += seg[i] * self.spectrum(cell, heading, s.spot)
-        mix = sfft.irfft(total, self.n_fft, axis=-1)[:, keep]
-        timg = sfft.irfft(target_spec, self.n_fft, axis=-1)[:, keep] if target_image else None
-        images = sfft.irfft(per_source, self.n_fft, axis=-1)[..., keep] if all_images else None
-        ref = self.reference(cell, sources[target], start)
-        return Window(start, mix, timg, ref, images)
+            self._spectra.move_to_end(key)
+        return spec
+
+    def _remember(self, key: tuple[int, int, int], spec: np.ndarray) -> None:
+        self._spectra[key] = spec
+        if len(self._spectra) > self._max_spectra:
+            self._spectra.popitem(last=False)
 
     def reference(self, cell: int, source: Source, start: int) -> np.ndarray:
         """(span,) the source's dry signal delayed and scaled by its earliest path, with the responses' lead.
 
-        The fractional delay uses the same windowed-sinc filter as the responses, in the time domain, so the
-        reference is one time-invariant filter of the dry signal and continuous across windows.
+        The fractional delay uses the same windowed-sinc filter as the responses, so the reference is one
+        time-invariant filter of the dry signal and continuous across windows. :meth:`render` applies it in
+        the frequency domain; this is the time-domain form.
         """
-        delay = float(self.responses.first_delay[cell, source.spot]) * self.fs + self.responses.lead
-        gain = float(self.responses.first_gain[cell, source.spot])
-        first, taps = fd_taps(np.asarray(delay))
-        lo = start - int(first) - FD_TAPS + 1  # oldest dry sample needed
+        first, taps = self._reference_filter(cell, source.spot)
+        lo = start - first - FD_TAPS + 1  # oldest dry sample needed
         x = np.zeros(self.span + FD_TAPS - 1, np.float64)
-        a, b = max(lo, 0), min(start + self.span - int(first), len(source.signal))
+        a, b = max(lo, 0), min(start + self.span - first, len(source.signal))
         if b > a:
             x[a - lo : b - lo] = source.signal[a:b]
-        return (gain * np.convolve(x, taps, mode="valid")).astype(np.float32)
+        return np.convolve(x, taps, mode="valid").astype(np.float32)
+
+
+def _rows(n: int) -> int:
+    """n rounded up to a multiple of ROW_BLOCK."""
+    return -(-n // ROW_BLOCK) * ROW_BLOCK
+
+
+def _check_precision(precision: str) -> str:
+    if precision not in _BYTES_PER_BIN:
+        raise ConfigError(f"precision must be one of {', '.join(map(repr, _BYTES_PER_BIN))} (got {precision!r})")
+    return precision
 
 
 def _ramp(n: int) -> np.ndarray:
@@ -167,7 +227,7 @@ class ListeningSession:
         self.target_image = target_image
         self.time = world.warmup
         self._tail: Window | None = None
-        self._ramp = _ramp(world.fade)
+        self._ramp = _ramp(world.fade).astype(np.float32)
         self._seg: np.ndarray | None = None
 
     def _current_seg(self) -> np.ndarray:
@@ -210,15 +270,10 @@ def _shift(win: Window, n: int) -> Window:
 
 
 def _blend(old: Window, new: Window, ramp: np.ndarray) -> Window:
-    """Cross-fade the first len(ramp) samples of ``new`` from ``old``."""
+    """Cross-fade the first len(ramp) samples of ``new`` from ``old``, in place (``new`` is a fresh render)."""
     m = len(ramp)
-    out = {}
     for k, v in _fields(new).items():
         o = _fields(old)[k]
-        if v is None or o is None:
-            out[k] = v
-            continue
-        v = v.copy()
-        v[..., :m] = o[..., :m] * (1 - ramp) + v[..., :m] * ramp
-        out[k] = v
-    return Window(new.start, **out)
+        if v is not None and o is not None:
+            v[..., :m] = o[..., :m] * (1 - ramp) + v[..., :m] * ramp
+    return new

@@ -239,3 +239,31 @@ def test_window_must_be_positive(responses, window):
 def test_target_must_index_a_source(world, target):
     with pytest.raises(ConfigError, match=rf"target must index one of the 2 sources \(got {target}\)"):
         ListeningSession(world, noise_sources(world, 1), target=target)
+
+
+# --- the render's frequency-domain paths ---------------------------------------------------------------
+
+
+@pytest.mark.parametrize("cell, spot", [(NEAR_A, 0), (GENERIC, 1), (FAR, 0)])
+def test_render_reference_equals_the_time_domain_filter(world, cell, spot):
+    # The reference filter applied by FFT in the render must equal direct convolution (numpy.convolve).
+    sources = noise_sources(world)
+    win = world.render(cell, 1, sources, world.warmup, target=spot)
+    np.testing.assert_allclose(win.reference, world.reference(cell, sources[spot], world.warmup), atol=2e-5)
+
+
+@pytest.mark.parametrize("precision, tol", [("single", 1e-6), ("half", 2e-3)])
+def test_precomputed_spectra_equal_the_direct_fft(responses, precision, tol):
+    # scipy.fft.rfft of the full response is the reference; half precision keeps about 3 significant digits.
+    lw = ListeningWorld(responses, WINDOW)
+    lw.precompute(precision)
+    assert lw.table_bytes("half") * 2 == lw.table_bytes("single")
+    want = np.fft.rfft(responses.response(GENERIC, 2, 1).astype(np.float64), lw.n_fft, axis=-1)
+    got = lw.spectrum(GENERIC, 2, 1)
+    assert got.dtype == np.complex64
+    assert np.abs(got - want).max() <= tol * np.abs(want).max()
+
+
+def test_unknown_precision_is_an_error(world):
+    with pytest.raises(ConfigError, match=r"precision must be one of 'single', 'half' \(got 'double'\)"):
+        world.precompute("double")
