@@ -83,6 +83,7 @@ def apply_weights(w: np.ndarray, spec: np.ndarray) -> np.ndarray:
 
     Returns
     -------
-    (F, T) output spectrum.
+    (F, T) output spectrum, in the precision of ``spec`` (the weights are cast to it).
     """
-    return np.conj(w[:, 0, None]) * spec[0] + np.conj(w[:, 1, None]) * spec[1]
+    w = np.conj(w).astype(np.result_type(spec.dtype, np.complex64), copy=False)
+    return w[:, 0, None] * spec[0] + w[:, 1, None] * spec[1]

@@ -10,8 +10,14 @@ import numpy as np
 
 from hearnav.acoustics import head
 from hearnav.errors import ConfigError
-from hearnav.separation.steering import steering_vector
-from hearnav.separation.stft import check_stft_settings, stft_freqs
+from hearnav.separation.direction import ear_betas
+from hearnav.separation.stft import (
+    check_stft_settings,
+    istft,
+    n_frames,
+    stft,
+    stft_freqs,
+)
 
 
 @dataclass(frozen=True)
@@ -27,6 +33,9 @@ class SeparationContext:
     target_image : optional privileged (2, n) image of the target at the two ears; only separators
         registered with ``privileged=True`` ever see it (the registry hides it from the others).
     radius, c : head radius (m) and speed of sound (m/s) of the head model the steering vector uses.
+    known_stft : optional ``(signal, spectrum)`` pair the caller has already transformed with these STFT
+        settings (the environment's features need the mixture's STFT too); :meth:`stft` returns the spectrum
+        for that very array instead of computing it again. The spectrum must be read-only.
     """
 
     fs: float
@@ -36,6 +45,8 @@ class SeparationContext:
     target_image: np.ndarray | None = field(default=None, compare=False, repr=False)
     radius: float = head.HEAD_RADIUS
     c: float = 343.0
+    known_stft: tuple[np.ndarray, np.ndarray] | None = field(default=None, compare=False, repr=False)
+    _synthesised: list = field(default_factory=list, init=False, compare=False, repr=False)
 
     def __post_init__(self) -> None:
         for name in ("fs", "azimuth", "radius", "c"):
@@ -51,14 +62,58 @@ class SeparationContext:
             shape = np.shape(self.target_image)
             if len(shape) != 2 or shape[0] != 2:
                 raise ConfigError(f"SeparationContext.target_image must be a (2, n) array, got shape {shape}")
+        if self.known_stft is not None:
+            self._check_known_stft()
+
+    def _check_known_stft(self) -> None:
+        signal, spec = self.known_stft
+        want = (*signal.shape[:-1], self.n_fft // 2 + 1, n_frames(signal.shape[-1], self.n_fft, self.hop))
+        if spec.shape != want or spec.flags.writeable:
+            raise ConfigError(f"SeparationContext.known_stft must pair a signal with its read-only STFT of shape "
+                              f"{want}, got shape {spec.shape}{' (writeable)' if spec.flags.writeable else ''}")
+
+    def stft(self, x: np.ndarray) -> np.ndarray:
+        """(..., F, T) STFT of ``x`` with this context's settings (:func:`hearnav.separation.stft.stft`).
+
+        Returns the ``known_stft`` spectrum, unchanged and read-only, when ``x`` is its signal.
+        """
+        if self.known_stft is not None and self.known_stft[0] is x:
+            return self.known_stft[1]
+        return stft(x, self.n_fft, self.hop)
+
+    def synthesise(self, spec: np.ndarray, n: int) -> np.ndarray:
+        """(n,) float32 signal of an (F, T) output spectrum (:func:`hearnav.separation.stft.istft`).
+
+        The context remembers the pair, so a caller that needs the estimate's spectrum too (the environment's
+        features) can take it from :meth:`spectrum_of` instead of transforming the estimate again.
+        """
+        out = istft(spec, n, self.n_fft, self.hop).astype(np.float32, copy=False)
+        self._synthesised[:] = [out, spec]
+        return out
+
+    def spectrum_of(self, signal: np.ndarray) -> np.ndarray | None:
+        """The (F, T) spectrum :meth:`synthesise` made ``signal`` from, or None if it did not make that array."""
+        return self._synthesised[1] if self._synthesised and self._synthesised[0] is signal else None
 
     def steering(self) -> np.ndarray:
         """(F, 2) steering vector of the target direction on the STFT bins (read-only, cached)."""
         return _steering(float(self.azimuth), float(self.fs), int(self.n_fft), float(self.radius), float(self.c))
 
 
-@lru_cache(maxsize=256)
+@lru_cache(maxsize=16)
+def _shadow_basis(fs: float, n_fft: int, radius: float, c: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(F,) angular frequencies of the STFT bins and the head-shadow basis L, P there (H = L + alpha P)."""
+    omega = 2 * np.pi * stft_freqs(n_fft, fs)
+    return (omega, *head.shadow_basis(omega, radius, c))
+
+
+@lru_cache(maxsize=4096)
 def _steering(azimuth: float, fs: float, n_fft: int, radius: float, c: float) -> np.ndarray:
-    d = steering_vector(azimuth, stft_freqs(n_fft, fs), radius, c)
+    """:func:`~hearnav.separation.steering.steering_vector` on the STFT bins, from the affine head-shadow basis
+    (the same model, computed once per bin grid; every pose of an episode asks for a new azimuth)."""
+    omega, low, high = _shadow_basis(fs, n_fft, radius, c)
+    beta = ear_betas(azimuth)  # (2,)
+    shadow = low + head.shadow_alpha(beta)[:, None] * high  # (2, F)
+    d = np.ascontiguousarray((shadow * np.exp(-1j * omega * head.woodworth_delay(beta, radius, c)[:, None])).T)
     d.flags.writeable = False
     return d

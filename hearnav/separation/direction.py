@@ -17,6 +17,8 @@ References
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import scipy.fft as sfft
 
@@ -35,6 +37,9 @@ def ear_betas(azimuth: float | np.ndarray) -> np.ndarray:
     -------
     (..., 2) angles beta in [0, pi], index 0 left ear, 1 right ear.
     """
+    if np.ndim(azimuth) == 0:  # one arrival: the ear axes are +-90 degrees, so cos(beta) = +-sin(azimuth)
+        side = math.sin(float(azimuth))
+        return np.arccos(np.clip(np.array([side, -side]), -1.0, 1.0))
     az = np.atleast_1d(np.asarray(azimuth, dtype=float))
     directions = np.stack([np.cos(az), np.sin(az), np.zeros_like(az)], axis=-1)  # (A, 3)
     beta = head.ear_angles(directions, 0.0).T  # (A, 2)

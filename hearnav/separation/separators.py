@@ -17,27 +17,36 @@ far-field steering vector (:mod:`hearnav.separation.steering`) at ``ctx.azimuth`
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 
 from hearnav.errors import SeparatorError
-from hearnav.separation.beamform import apply_weights, das_weights, mvdr_weights, spatial_covariance
+from hearnav.separation.beamform import (
+    apply_weights,
+    das_weights,
+    mvdr_weights,
+    spatial_covariance,
+)
 from hearnav.separation.context import SeparationContext
 from hearnav.separation.masks import ratio_mask, spatial_mask
 from hearnav.separation.registry import register_separator
-from hearnav.separation.stft import istft, stft
 
 #: |sin(azimuth)| below which the target counts as straight ahead or behind for the ``ear`` separator.
 _MEDIAN_TOL = 1e-9
 
 
-def _spectra(mixture: np.ndarray, ctx: SeparationContext) -> np.ndarray:
-    """(2, F, T) STFT of the mixture."""
-    return stft(mixture, ctx.n_fft, ctx.hop)
+def _das(ctx: SeparationContext) -> np.ndarray:
+    """(F, 2) read-only delay-and-sum weights towards ``ctx.azimuth``, in single precision (cached)."""
+    return _das_weights(float(ctx.azimuth), float(ctx.fs), int(ctx.n_fft), float(ctx.radius), float(ctx.c))
 
 
-def _signal(spec: np.ndarray, n: int, ctx: SeparationContext) -> np.ndarray:
-    """(n,) float32 signal of an (F, T) output spectrum."""
-    return istft(spec, n, ctx.n_fft, ctx.hop).astype(np.float32)
+@lru_cache(maxsize=4096)
+def _das_weights(azimuth: float, fs: float, n_fft: int, radius: float, c: float) -> np.ndarray:
+    ctx = SeparationContext(fs=fs, azimuth=azimuth, n_fft=n_fft, radius=radius, c=c)
+    w = das_weights(ctx.steering()).astype(np.complex64)
+    w.flags.writeable = False
+    return w
 
 
 @register_separator("ear")
@@ -56,25 +65,25 @@ def better_ear(mixture: np.ndarray, ctx: SeparationContext) -> np.ndarray:
 @register_separator("delay-and-sum")
 def delay_and_sum(mixture: np.ndarray, ctx: SeparationContext) -> np.ndarray:
     """Delay-and-sum beamformer towards ``ctx.azimuth``."""
-    spec = _spectra(mixture, ctx)
-    return _signal(apply_weights(das_weights(ctx.steering()), spec), mixture.shape[1], ctx)
+    spec = ctx.stft(mixture)
+    return ctx.synthesise(apply_weights(_das(ctx), spec), mixture.shape[1])
 
 
 @register_separator("mvdr")
 def mvdr(mixture: np.ndarray, ctx: SeparationContext) -> np.ndarray:
     """MVDR (MPDR) beamformer towards ``ctx.azimuth`` from the window's own covariance."""
-    spec = _spectra(mixture, ctx)
+    spec = ctx.stft(mixture)
     w = mvdr_weights(spatial_covariance(spec), ctx.steering())
-    return _signal(apply_weights(w, spec), mixture.shape[1], ctx)
+    return ctx.synthesise(apply_weights(w, spec), mixture.shape[1])
 
 
 @register_separator("spatial-mask")
 def spatial_masking(mixture: np.ndarray, ctx: SeparationContext) -> np.ndarray:
     """Delay-and-sum output masked by the ILD/IPD match to the target direction."""
-    spec = _spectra(mixture, ctx)
+    spec = ctx.stft(mixture)
     d = ctx.steering()
-    out = apply_weights(das_weights(d), spec) * spatial_mask(spec, d)
-    return _signal(out, mixture.shape[1], ctx)
+    out = apply_weights(_das(ctx), spec) * spatial_mask(spec, d)
+    return ctx.synthesise(out, mixture.shape[1])
 
 
 @register_separator("oracle-mask", privileged=True)
@@ -87,8 +96,8 @@ def oracle_mask(mixture: np.ndarray, ctx: SeparationContext) -> np.ndarray:
     if image.shape != mixture.shape or not np.all(np.isfinite(image)):
         raise SeparatorError(f"separator 'oracle-mask' needs a finite target_image of the mixture's shape "
                              f"{mixture.shape}, got {image.shape}")
-    spec = _spectra(mixture, ctx)
-    w = das_weights(ctx.steering())
+    spec = ctx.stft(mixture)
+    w = _das(ctx)
     out = apply_weights(w, spec)
-    target = apply_weights(w, _spectra(image, ctx))
-    return _signal(out * ratio_mask(target, out - target), mixture.shape[1], ctx)
+    target = apply_weights(w, ctx.stft(image))
+    return ctx.synthesise(out * ratio_mask(target, out - target), mixture.shape[1])

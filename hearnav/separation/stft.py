@@ -30,9 +30,9 @@ def check_stft_settings(n_fft: int, hop: int) -> None:
 
 
 @lru_cache(maxsize=16)
-def sqrt_hann(n_fft: int) -> np.ndarray:
-    """(n_fft,) periodic sqrt-Hann window, sqrt(0.5 - 0.5 cos(2 pi k / n_fft)). Read-only."""
-    w = np.sqrt(0.5 - 0.5 * np.cos(2 * np.pi * np.arange(n_fft) / n_fft))
+def sqrt_hann(n_fft: int, dtype: type = np.float64) -> np.ndarray:
+    """(n_fft,) periodic sqrt-Hann window, sqrt(0.5 - 0.5 cos(2 pi k / n_fft)), in ``dtype``. Read-only."""
+    w = np.sqrt(0.5 - 0.5 * np.cos(2 * np.pi * np.arange(n_fft) / n_fft)).astype(dtype)
     w.flags.writeable = False
     return w
 
@@ -65,16 +65,16 @@ def stft(x: np.ndarray, n_fft: int = 512, hop: int = 128) -> np.ndarray:
     total = (n_frames(n, n_fft, hop) - 1) * hop + n_fft
     padded = np.zeros(x.shape[:-1] + (total,), dtype=np.result_type(x.dtype, np.float32))
     padded[..., pad : pad + n] = x
-    frames = sliding_window_view(padded, n_fft, axis=-1)[..., ::hop, :] * sqrt_hann(n_fft)
+    frames = sliding_window_view(padded, n_fft, axis=-1)[..., ::hop, :] * sqrt_hann(n_fft, padded.dtype.type)
     return np.swapaxes(sfft.rfft(frames, axis=-1), -1, -2)
 
 
 @lru_cache(maxsize=32)
-def _inverse_envelope(n: int, n_fft: int, hop: int) -> np.ndarray:
-    """(n,) reciprocal of the summed squared window over the kept samples. Read-only."""
+def _inverse_envelope(n: int, n_fft: int, hop: int, dtype: type = np.float64) -> np.ndarray:
+    """(n,) reciprocal of the summed squared window over the kept samples, in ``dtype``. Read-only."""
     frames = np.broadcast_to(sqrt_hann(n_fft) ** 2, (n_frames(n, n_fft, hop), n_fft))
     env = _overlap_add(frames, hop)[n_fft - hop : n_fft - hop + n]
-    inv = 1.0 / env
+    inv = (1.0 / env).astype(dtype)
     inv.flags.writeable = False
     return inv
 
@@ -102,6 +102,7 @@ def istft(spec: np.ndarray, n: int, n_fft: int = 512, hop: int = 128) -> np.ndar
     -------
     (..., n) real signals.
     """
-    frames = sfft.irfft(np.swapaxes(spec, -1, -2), n_fft, axis=-1) * sqrt_hann(n_fft)
+    frames = sfft.irfft(np.swapaxes(spec, -1, -2), n_fft, axis=-1)
+    frames *= sqrt_hann(n_fft, frames.dtype.type)
     start = n_fft - hop
-    return _overlap_add(frames, hop)[..., start : start + n] * _inverse_envelope(n, n_fft, hop)
+    return _overlap_add(frames, hop)[..., start : start + n] * _inverse_envelope(n, n_fft, hop, frames.dtype.type)

@@ -6,8 +6,14 @@ import scipy.fft as sfft
 
 from hearnav.acoustics import head
 from hearnav.errors import ConfigError
-from hearnav.separation import expected_itd, gcc_phat, steering_vector
-from hearnav.separation.direction import azimuth_from_itd, ear_delays
+from hearnav.separation import (
+    SeparationContext,
+    expected_itd,
+    gcc_phat,
+    steering_vector,
+)
+from hearnav.separation.direction import azimuth_from_itd, ear_betas, ear_delays
+from hearnav.separation.stft import stft_freqs
 
 FS = 16000
 
@@ -125,3 +131,18 @@ def test_steering_vector_matches_head_model():
     beta = head.ear_angles(np.array([[np.cos(az), np.sin(az), 0.0]]), 0.0)[:, 0]
     expected = head.head_shadow(omega, beta) * np.exp(-1j * omega * head.woodworth_delay(beta)[:, None])
     np.testing.assert_allclose(steering_vector(az, freqs), expected.T, atol=1e-12)
+
+
+def test_scalar_azimuths_take_the_same_ear_angles_as_arrays():
+    # Geometry (common practice): with the ears on the +-90 degree axes, cos(beta) = +-sin(azimuth); the scalar
+    # shortcut must agree with the general ear_angles path.
+    az = np.random.default_rng(3).uniform(-7, 7, 200)
+    np.testing.assert_allclose(np.array([ear_betas(float(a)) for a in az]), ear_betas(az), atol=1e-12)
+
+
+@pytest.mark.parametrize("azimuth", [0.0, 0.4, np.pi / 2, -2.5, np.pi])
+def test_context_steering_is_the_steering_vector_on_the_stft_bins(azimuth):
+    # Brown & Duda's H(w, beta) = L(w) + alpha(beta) P(w) is an identity of the model (hearnav.acoustics.head),
+    # so the context's cached-basis form must equal steering_vector to rounding.
+    ctx = SeparationContext(fs=FS, azimuth=azimuth)
+    np.testing.assert_allclose(ctx.steering(), steering_vector(azimuth, stft_freqs(512, FS)), atol=1e-12)

@@ -4,10 +4,13 @@ import fast_bss_eval
 import numpy as np
 import pytest
 import torch
-from torchmetrics.functional.audio import scale_invariant_signal_distortion_ratio as tm_si_sdr
+from torchmetrics.functional.audio import (
+    scale_invariant_signal_distortion_ratio as tm_si_sdr,
+)
 
 from hearnav.errors import ConfigError
 from hearnav.separation import si_sdr, si_sdr_batch
+from hearnav.separation.metrics import si_sdr_unchecked
 
 
 def _pair(seed, n=4000):
@@ -111,3 +114,19 @@ def test_silent_reference_raises():
         si_sdr(np.ones(3), np.zeros(3))
     with pytest.raises(ConfigError, match="after removing the mean"):
         si_sdr(np.array([1.0, 2.0, 0.0]), np.full(3, 2.0), zero_mean=True)
+
+
+@pytest.mark.parametrize("seed", range(5))
+def test_unchecked_hot_path_matches_fast_bss_eval(seed):
+    # Reference library fast_bss_eval (PyPI), reference first; the environment scores every step with this form.
+    est, ref = _pair(seed)
+    expected = float(fast_bss_eval.si_sdr(ref[None], est[None], zero_mean=False)[0])
+    assert si_sdr_unchecked(est.astype(np.float32), ref.astype(np.float32)) == pytest.approx(expected, abs=1e-4)
+    assert si_sdr_unchecked(est, ref) == pytest.approx(si_sdr(est, ref), abs=1e-9)
+
+
+@pytest.mark.parametrize("scale, expected", [(0.0, -100.0), (2.5, 100.0)])
+def test_unchecked_hot_path_clips_like_si_sdr(scale, expected):
+    # Clipping of this module's docstring: a silent estimate gives -100 dB, a scaled copy +100 dB.
+    ref = np.random.default_rng(0).standard_normal(512)
+    assert si_sdr_unchecked(scale * ref, ref) == si_sdr(scale * ref, ref) == expected

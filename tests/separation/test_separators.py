@@ -5,8 +5,15 @@ import pytest
 from binaural_scenes import FS, far_field_image
 
 from hearnav.errors import ConfigError, SeparatorError
-from hearnav.separation import SeparationContext, get_separator, register_separator, separator_names, si_sdr
+from hearnav.separation import (
+    SeparationContext,
+    get_separator,
+    register_separator,
+    separator_names,
+    si_sdr,
+)
 from hearnav.separation.registry import unregister_separator
+from hearnav.separation.stft import istft, stft
 
 BUILT_IN = ["delay-and-sum", "ear", "mvdr", "oracle-mask", "spatial-mask"]
 
@@ -187,3 +194,40 @@ def test_a_separator_breaking_the_contract_raises(window, scratch):
     scratch.append("too-short")
     with pytest.raises(SeparatorError, match=r"must return a finite \(8000,\) estimate, got shape \(7999,\)"):
         get_separator("too-short")(window[0], SeparationContext(FS, 0.0))
+
+
+# --- sharing transforms through the context ---------------------------------------------------------------
+
+
+def test_context_reuses_a_known_stft_only_for_its_own_signal():
+    x = np.random.default_rng(5).standard_normal((2, 4000)).astype(np.float32)
+    spec = stft(x)
+    spec.flags.writeable = False
+    ctx = SeparationContext(fs=16000, azimuth=0.2, known_stft=(x, spec))
+    assert ctx.stft(x) is spec
+    other = x.copy()
+    assert ctx.stft(other) is not spec
+    np.testing.assert_array_equal(ctx.stft(other), spec)
+
+
+def test_known_stft_must_be_read_only_and_fit_the_signal():
+    x = np.zeros((2, 4000), np.float32)
+    with pytest.raises(ConfigError, match=r"known_stft must pair a signal with its read-only STFT of shape "
+                                          r"\(2, 257, 35\), got shape \(2, 257, 35\) \(writeable\)"):
+        SeparationContext(fs=16000, azimuth=0.0, known_stft=(x, stft(x)))
+    short = stft(x[:, :1000])
+    short.flags.writeable = False
+    with pytest.raises(ConfigError, match=r"of shape \(2, 257, 35\), got shape \(2, 257, 11\)$"):
+        SeparationContext(fs=16000, azimuth=0.0, known_stft=(x, short))
+
+
+@pytest.mark.parametrize("name", [n for n in separator_names() if n != "ear"])
+def test_built_ins_synthesise_through_the_context(name):
+    # The inverse STFT (hearnav.separation.stft.istft) of the remembered spectrum is the returned estimate.
+    rng = np.random.default_rng(6)
+    x = rng.standard_normal((2, 4000)).astype(np.float32)
+    ctx = SeparationContext(fs=16000, azimuth=0.4, target_image=0.5 * x)
+    est = get_separator(name).fn(x, ctx)
+    spec = ctx.spectrum_of(est)
+    assert spec is not None and ctx.spectrum_of(est.copy()) is None
+    np.testing.assert_allclose(istft(spec, 4000), est, atol=1e-5)
