@@ -2,8 +2,9 @@
 
 In one process it measures:
 - steps per second of HearNavEnv (default config) over seeded random-action episodes, after a warm-up;
-- the floor for the same windows: bare FFT mixing from cached response spectra (one FFT per dry segment,
-  a product per source, two inverse FFTs) plus one STFT/ISTFT pair;
+- the floor for the same windows: bare FFT mixing from cached response spectra (one FFT of the dry segments,
+  padded to a multiple of four rows as the environment does so pocketfft transforms them together, a product
+  per source, the inverse FFT of the two ears) plus one STFT/ISTFT pair;
 - re-simulating the room with pyroomacoustics at every step (hybrid image sources + ray tracing at both
   ears, then convolution), which is how a user would wire it by hand.
 Usage: python benchmarks/step_speed.py [--episodes 30] [--resim 2]
@@ -43,6 +44,7 @@ def run_episodes(env, seeds: list[int]) -> tuple[float, int, list]:
 
 def floor_time(record: list) -> float:
     """Seconds for bare FFT mixing of the recorded windows from cached spectra, plus one STFT/ISTFT pair."""
+    from hearnav.listening import ROW_BLOCK
     from hearnav.separation.stft import istft, stft
 
     spent = 0.0
@@ -51,7 +53,7 @@ def floor_time(record: list) -> float:
         spectra = [lw.spectrum(cell, heading, s.spot) for s in sources]  # cached: not timed as work
         t0 = time.perf_counter()
         lo = start - lw.history
-        segs = np.zeros((len(sources), lw.n_fft), np.float32)
+        segs = np.zeros((ROW_BLOCK * -(-len(sources) // ROW_BLOCK), lw.n_fft), np.float32)  # as the env pads rows
         for i, s in enumerate(sources):
             segs[i, : lw.history + lw.window] = s.signal[lo: start + lw.window]
         seg = sfft.rfft(segs, axis=-1)

@@ -9,14 +9,20 @@ import numpy as np
 from gymnasium import spaces
 
 from hearnav.env.config import EnvConfig, make_config
-from hearnav.env.episode import EpisodePlan, check_category, draw_episode, render_signals
+from hearnav.env.episode import (
+    EpisodePlan,
+    check_category,
+    draw_episode,
+    render_signals,
+)
 from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor
-from hearnav.env.patch import egocentric_patch, visible_sources
+from hearnav.env.patch import egocentric_patch, occupancy_patch, visible_sources
 from hearnav.env.worlds import World, get_world, resolve_scenes
 from hearnav.errors import ConfigError, HearnavError, SeparatorError
 from hearnav.listening import FADE_S, ListeningSession, Source, Window
 from hearnav.separation import SeparationContext, get_separator
 from hearnav.separation.metrics import si_sdr_unchecked
+from hearnav.separation.stft import stft
 
 FORWARD, TURN_LEFT, TURN_RIGHT, STAY = 0, 1, 2, 3
 ACTION_NAMES = ("forward", "turn-left", "turn-right", "stay")
@@ -124,8 +130,8 @@ class HearNavEnv(gym.Env):
         self.fs = cfg.acoustics.fs
         self.window = int(round(cfg.hop_s * self.fs))
         self._fade = int(round(FADE_S * self.fs))
-        self.features = FeatureExtractor(self.fs, self.window, cfg.n_bands, cfg.n_segments)
-        self.estimate_features = FeatureExtractor(self.fs, self.window - self._fade, cfg.n_bands, cfg.n_segments)
+        self._stft = (SeparationContext.n_fft, SeparationContext.hop)
+        self.features = FeatureExtractor(self.fs, self.window - self._fade, cfg.n_bands, cfg.n_segments, *self._stft)
         seg, bands = self.features.shape
         lo, hi = LEVEL_DB
         level = lambda n: spaces.Box(lo, hi, (n, seg, bands), np.float32)  # noqa: E731
@@ -144,6 +150,8 @@ class HearNavEnv(gym.Env):
         self.plan: EpisodePlan | None = None
         self._session: ListeningSession | None = None
         self._path: list[tuple[int, int]] = []
+        self._occupancy: dict[tuple[str, int, int], np.ndarray] = {}
+        self._fov = float(np.deg2rad(cfg.fov_deg))
 
     # -- episode -----------------------------------------------------------------------------------------------
 
@@ -170,6 +178,10 @@ class HearNavEnv(gym.Env):
         self.cell, self.heading = plan.start_cell, plan.start_heading
         self.steps = 0
         self._path = [(self.cell, self.heading)]
+        spot_ids = [p.spot for p in plan.sources]
+        self._spots = spot_ids, np.array([world.scene.spots[k].position[:2] for k in spot_ids])
+        self._maps: dict[tuple[int, int], np.ndarray] = {}
+        self._source_info = [p.info(world.scene) for p in plan.sources]
         self.si_sdr_db = None
         for _ in range(MAX_LEAD_IN + 1):  # a target that starts in a pause: listen on until it sounds
             self._hear(collided=False)
@@ -219,9 +231,12 @@ class HearNavEnv(gym.Env):
         self.collided = collided
         self._bearing = self.target_bearing(self.cell, self.heading)
         scored = scored_part(self._window, self._fade)
-        ctx = self.context(self.cell, self.heading, scored)
-        estimate, score = self.score_window(self._window, self.cell, self.heading, ctx)
+        self._spec = stft(scored.mixture, *self._stft)  # shared by the separator and the features
+        self._spec.flags.writeable = False
+        ctx = self._context(self._bearing[1], scored, known_stft=(scored.mixture, self._spec))
+        estimate, score = self._score_scored(scored, ctx)
         self._estimate = estimate
+        self._estimate_spec = ctx.spectrum_of(estimate)
         self.target_active = score is not None
         if score is not None:
             self.si_sdr_db = score
@@ -236,11 +251,16 @@ class HearNavEnv(gym.Env):
         bearing = float(np.arctan2(d[1], d[0]) - grid.heading_angle(heading))
         return float(np.hypot(*d)), float((bearing + np.pi) % (2 * np.pi) - np.pi)
 
-    def context(self, cell: int, heading: int, window: Window | None = None) -> SeparationContext:
+    def context(self, cell: int, heading: int, window: Window | None = None,
+                known_stft: tuple[np.ndarray, np.ndarray] | None = None) -> SeparationContext:
         """The separator's side information at a pose (the true target image only for privileged separators)."""
-        _, bearing = self.target_bearing(cell, heading)
+        return self._context(self.target_bearing(cell, heading)[1], window, known_stft)
+
+    def _context(self, bearing: float, window: Window | None = None,
+                 known_stft: tuple[np.ndarray, np.ndarray] | None = None) -> SeparationContext:
+        """:meth:`context` for a target bearing already known."""
         image = window.target_image if (window is not None and self.separator.privileged) else None
-        return SeparationContext(fs=self.fs, azimuth=bearing, target_image=image,
+        return SeparationContext(fs=self.fs, azimuth=bearing, target_image=image, known_stft=known_stft,
                                  radius=self.config.acoustics.head_radius, c=self.config.acoustics.speed_of_sound)
 
     def score_window(self, window: Window, cell: int, heading: int,
@@ -250,7 +270,10 @@ class HearNavEnv(gym.Env):
         The score is None when the target is silent in the window (its reference has no energy).
         """
         window = scored_part(window, self._fade)
-        ctx = ctx or self.context(cell, heading, window)
+        return self._score_scored(window, ctx or self.context(cell, heading, window))
+
+    def _score_scored(self, window: Window, ctx: SeparationContext) -> tuple[np.ndarray, float | None]:
+        """:meth:`score_window` of a window already cut to its scored part."""
         estimate = np.asarray(self.separator.fn(window.mixture, ctx), np.float32)  # our own input: no re-checks
         if estimate.shape != (window.mixture.shape[1],) or not np.isfinite(estimate).all():
             raise SeparatorError(f"separator {self.separator.name!r} must return a finite "
@@ -262,20 +285,35 @@ class HearNavEnv(gym.Env):
     # -- observation -----------------------------------------------------------------------------------------
 
     def _obs(self) -> dict[str, np.ndarray]:
-        world, cfg = self.world, self.config
-        grid, scene = world.grid, world.scene
-        xy = grid.centers[self.cell]
-        spots = np.array([scene.spots[p.spot].position[:2] for p in self.plan.sources])
-        los = world.responses.line_of_sight[self.cell, [p.spot for p in self.plan.sources]]
-        seen = visible_sources(xy, grid.heading_angle(self.heading), spots, los, np.deg2rad(cfg.fov_deg))
         dist, bearing = self._bearing
         return {
-            "binaural": self.features.binaural(self._window.mixture),
-            "estimate": self.estimate_features.mono(self._estimate),
-            "map": egocentric_patch(grid, self.cell, self.heading, cfg.patch_size, spots[seen]),
+            "binaural": self.features.binaural(self._spec),
+            "estimate": self._estimate_levels(),
+            "map": self._map(),
             "target": np.array([min(dist, MAX_DISTANCE), np.sin(bearing), np.cos(bearing)], np.float32),
-            "budget": np.array([1.0 - self.steps / cfg.budget], np.float32),
+            "budget": np.array([1.0 - self.steps / self.config.budget], np.float32),
         }
+
+    def _map(self) -> np.ndarray:
+        """The egocentric map at the current pose (memoised per pose for the episode: its sources stay put)."""
+        pose = (self.cell, self.heading)
+        if pose not in self._maps:
+            grid, cfg = self.world.grid, self.config
+            key = (self.plan.scene, *pose)
+            if key not in self._occupancy:
+                self._occupancy[key] = occupancy_patch(grid, self.cell, self.heading, cfg.patch_size)
+            spot_ids, spots = self._spots
+            los = self.world.responses.line_of_sight[self.cell, spot_ids]
+            seen = visible_sources(grid.centers[self.cell], grid.heading_angle(self.heading), spots, los, self._fov)
+            self._maps[pose] = egocentric_patch(grid, self.cell, self.heading, self._occupancy[key], spots[seen])
+        return self._maps[pose].copy()
+
+    def _estimate_levels(self) -> np.ndarray:
+        """Band levels of the estimate: from the separator's output spectrum when it synthesised the estimate
+        through the context (every built-in does), else from the estimate's own STFT."""
+        if self._estimate_spec is not None:
+            return self.features.mono(self._estimate_spec[:, self.features.picked])
+        return self.features.mono_signal(self._estimate)
 
     def _info(self) -> dict[str, Any]:
         grid = self.world.grid
@@ -289,7 +327,7 @@ class HearNavEnv(gym.Env):
             "target_active": bool(self.target_active),
             "step": int(self.steps),
             "scene": self.plan.scene,
-            "sources": [p.info(self.world.scene) for p in self.plan.sources],
+            "sources": [dict(d) for d in self._source_info],
         }
 
     # -- privileged access and rendering ---------------------------------------------------------------------

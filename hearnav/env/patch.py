@@ -25,21 +25,15 @@ def patch_offsets(size: int, heading_angle: float) -> np.ndarray:
     return out
 
 
-def egocentric_patch(grid: Grid, cell: int, heading: int, size: int, visible_xy: np.ndarray) -> np.ndarray:
-    """(2, size, size) float32: channel 0 is 1 where the floor is not navigable (and on the four neighbours the
-    listener cannot step to), channel 1 marks visible sources.
-
-    Parameters
-    ----------
-    visible_xy : (k, 2) positions (m) of the sources in line of sight and in the field of view.
-    """
+def occupancy_patch(grid: Grid, cell: int, heading: int, size: int) -> np.ndarray:
+    """(size, size) read-only float32: 1 where the floor around the listener is not navigable, and on the four
+    neighbours the listener cannot step to; row 0 is ahead, column 0 is to the left."""
     off = patch_offsets(size, grid.heading_angle(heading))
     ij = grid.ij[cell] + off  # (size, size, 2)
     inside = (ij[..., 0] >= 0) & (ij[..., 0] < grid.index.shape[0]) & (ij[..., 1] >= 0) & (ij[..., 1] < grid.index.shape[1])
     ids = np.full(inside.shape, -1, np.int64)
     ids[inside] = grid.index[ij[..., 0][inside], ij[..., 1][inside]]
-    out = np.zeros((2, size, size), np.float32)
-    out[0] = ids < 0
+    out = (ids < 0).astype(np.float32)
     half = size // 2
     # A thin wall between two navigable cells blocks the move without filling either cell: mark the
     # neighbour as blocked when the move to it is, so the map shows every wall the listener can bump into.
@@ -47,7 +41,24 @@ def egocentric_patch(grid: Grid, cell: int, heading: int, size: int, visible_xy:
         if grid.forward(cell, (heading + k) % grid.n_headings) < 0:
             r, c = {0: (half - 1, half), 1: (half, half - 1), 2: (half + 1, half), 3: (half, half + 1)}[
                 k // (grid.n_headings // 4)]
-            out[0, r, c] = 1.0
+            out[r, c] = 1.0
+    out.flags.writeable = False
+    return out
+
+
+def egocentric_patch(grid: Grid, cell: int, heading: int, occupancy: np.ndarray, visible_xy: np.ndarray) -> np.ndarray:
+    """(2, size, size) float32: channel 0 is the :func:`occupancy_patch` of the pose, channel 1 marks visible
+    sources.
+
+    Parameters
+    ----------
+    occupancy : (size, size) the pose's :func:`occupancy_patch`.
+    visible_xy : (k, 2) positions (m) of the sources in line of sight and in the field of view.
+    """
+    size = occupancy.shape[0]
+    half = size // 2
+    out = np.zeros((2, size, size), np.float32)
+    out[0] = occupancy
     angle = grid.heading_angle(heading)
     f = np.array([np.cos(angle), np.sin(angle)])
     for xy in np.asarray(visible_xy, float).reshape(-1, 2):

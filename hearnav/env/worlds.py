@@ -27,9 +27,23 @@ class World:
 
 
 #: Memory (bytes) this process may spend on precomputed response spectra, over all worlds
-#: (HEARNAV_SPECTRA_MB overrides; worlds beyond it compute spectra on demand through a bounded cache).
-SPECTRA_BUDGET = int(float(os.environ.get("HEARNAV_SPECTRA_MB", "4096")) * 2**20)
+#: (HEARNAV_SPECTRA_MB overrides). A world's spectra are kept in single precision when they fit, else in half
+#: precision; worlds beyond the budget compute spectra on demand through a bounded cache.
+DEFAULT_SPECTRA_MB = 4096
 _spent = 0
+
+
+def spectra_budget() -> int:
+    """Bytes of the spectra budget: HEARNAV_SPECTRA_MB megabytes (default 4096)."""
+    raw = os.environ.get("HEARNAV_SPECTRA_MB", str(DEFAULT_SPECTRA_MB))
+    try:
+        mb = float(raw)
+    except ValueError:
+        mb = -1.0
+    if not mb >= 0 or mb == float("inf"):
+        raise ConfigError(f"HEARNAV_SPECTRA_MB must be a number of megabytes >= 0 (got {raw!r}); e.g. "
+                          f"HEARNAV_SPECTRA_MB=2048, or unset it for {DEFAULT_SPECTRA_MB}")
+    return int(mb * 2**20)
 
 
 @lru_cache(maxsize=32)
@@ -40,9 +54,12 @@ def get_world(name: str, settings: AcousticSettings, window: int) -> World:
     grid = build_grid(scene, settings.n_headings)
     responses = load_or_build(scene, settings, grid)
     listening = ListeningWorld(responses, window)
-    if _spent + listening.table_bytes <= SPECTRA_BUDGET:
-        listening.precompute()
-        _spent += listening.table_bytes
+    budget = spectra_budget()
+    for precision in ("single", "half"):  # single precision is faster to mix; half fits twice as many worlds
+        if _spent + listening.table_bytes(precision) <= budget:
+            listening.precompute(precision)
+            _spent += listening.table_bytes(precision)
+            break
     return World(scene, grid, responses, listening)
 
 

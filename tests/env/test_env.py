@@ -6,7 +6,10 @@ import pytest
 
 import hearnav
 from hearnav.env import ENV_ID, FlatObservation, InvalidActionError
+from hearnav.env.features import LEVEL_DB
 from hearnav.errors import ConfigError, SceneError, SeparatorError
+from hearnav.separation import register_separator
+from hearnav.separation.registry import unregister_separator
 from tests.env.conftest import FAST_ACOUSTICS
 
 
@@ -197,3 +200,58 @@ def test_map_shows_every_blocked_neighbour(make_env):
             env.cell, env.heading = cell, heading
             m = env._obs()["map"][0]
             assert (m[half - 1, half] == 1.0) == (grid.forward(cell, heading) < 0), (cell, heading)
+
+
+def test_estimate_levels_from_the_output_spectrum_match_the_estimates_own(make_env):
+    # Welch band levels (common practice) of the returned estimate against those the observation takes from
+    # the separator's output spectrum: the inverse STFT is nearly consistent, so they agree closely.
+    env = make_env(budget=4)
+    diffs = []
+    for seed in range(3):
+        env.reset(seed=seed)
+        for action in (0, 1, 3):
+            obs, *_ = env.step(action)
+            own = env.features.mono_signal(env._estimate)
+            assert env._estimate_spec is not None
+            loud = own > LEVEL_DB[0] + 20
+            diffs.append(np.abs(obs["estimate"] - own)[loud])
+    assert np.median(np.concatenate(diffs)) < 0.1
+
+
+def test_a_separator_without_the_context_synthesis_gets_levels_of_its_estimate(make_env):
+    @register_separator("left-ear-test")
+    def left(mixture, ctx):
+        return mixture[0].copy()
+
+    try:
+        env = make_env(separator="left-ear-test")
+        obs, _ = env.reset(seed=1)
+        assert env._estimate_spec is None
+        np.testing.assert_array_equal(obs["estimate"], env.features.mono_signal(env._estimate))
+        np.testing.assert_allclose(obs["estimate"][0], obs["binaural"][0], atol=1e-4)  # it is the left ear
+    finally:
+        unregister_separator("left-ear-test")
+
+
+@pytest.mark.parametrize("value", ["lots", "-5", "nan"])
+def test_bad_spectra_budget_is_a_clear_error(monkeypatch, value):
+    from hearnav.env.worlds import spectra_budget
+
+    monkeypatch.setenv("HEARNAV_SPECTRA_MB", value)
+    with pytest.raises(ConfigError, match=rf"HEARNAV_SPECTRA_MB must be a number of megabytes >= 0 \(got '{value}'\)"):
+        spectra_budget()
+
+
+def test_spectra_budget_picks_single_then_half_precision(make_env, monkeypatch):
+    from hearnav.env import worlds
+
+    env = make_env()
+    env.reset(seed=0)
+    need = env.world.listening.table_bytes("half")
+    for mb, dtype in ((need * 2.5 / 2**20, np.complex64), (need * 1.5 / 2**20, np.float16), (0, None)):
+        monkeypatch.setenv("HEARNAV_SPECTRA_MB", str(mb))
+        monkeypatch.setattr(worlds, "_spent", 0)
+        worlds.get_world.cache_clear()
+        table = worlds.get_world(env.plan.scene, env.config.acoustics, env.window).listening._table
+        assert (table is None) if dtype is None else (table.dtype == dtype)
+    worlds.get_world.cache_clear()
