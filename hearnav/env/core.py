@@ -73,8 +73,14 @@ class HearNavEnv(gym.Env):
 
     | key | shape | content | bounds |
     |---|---|---|---|
-    | binaural | (5, S, B) | left level dB, right level dB, ILD dB, cos IPD, sin IPD of the current window | [-120, 40], [-60, 60], [-1, 1] |
+    | binaural | (5, S, B) | left level dB, right level dB, ILD dB, cos IPD, sin IPD of the current window after its cross-fade | [-120, 40], [-60, 60], [-1, 1] |
     | estimate | (1, S, B) | level dB of the separator's current estimate | [-120, 40] |
+
+    Levels are Welch band levels (``hearnav.env.features``): sqrt-Hann frames of 512 samples every 256 samples
+    (every other frame of the separator's STFT, which the step computes once), averaged over each of the S
+    equal segments and summed over each band's bins. IPDs are the angles of the band-summed cross-spectra. The
+    estimate's levels come from the separator's output spectrum when it synthesised the estimate through
+    ``SeparationContext.synthesise`` (every built-in does), else from the STFT of the returned estimate.
     | map | (2, P, P) | egocentric map, row 0 ahead, column 0 left: 1 = not navigable; 1 = a source in line of sight inside the field of view ``fov_deg`` | [0, 1] |
     | target | (3,) | distance to the target spot (m), sin and cos of its bearing relative to the heading (counter-clockwise) | [0, 50], [-1, 1] |
     | budget | (1,) | fraction of the step budget left | [0, 1] |
