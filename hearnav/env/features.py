@@ -102,12 +102,12 @@ class FeatureExtractor:
         y = self.frames.T @ x  # (3, S, 2F) frame averages
         power = y[0:2] @ self.bands2  # (2, S, B)
         cross = y[2] @ self.bands_cross  # (S, 2B): Re then Im of the band-summed L R*
-        level = 10 * np.log10(power + _POWER_FLOOR)
+        level = _level_db(power)
         re, im = cross[:, :n_bands], cross[:, n_bands:]
         mag = np.hypot(re, im)
         safe = np.where(mag > 0, mag, 1.0)
         out = np.empty((5, *power.shape[1:]), np.float32)
-        np.clip(level, *LEVEL_DB, out=out[0:2])
+        np.clip(level, *LEVEL_DB, out=out[0:2])  # the ILD below is of the unclipped levels
         np.clip(level[0] - level[1], *ILD_DB, out=out[2])
         out[3] = np.where(mag > 0, re / safe, 1.0)  # cos and sin of the IPD; a zero cross-spectrum has IPD 0
         out[4] = im / safe
@@ -116,11 +116,16 @@ class FeatureExtractor:
     def mono(self, spec: np.ndarray) -> np.ndarray:
         """(1, S, B) float32 level in dB of a mono signal from its (F, K) complex64 feature frames."""
         v = _interleaved(spec[None])
-        return np.clip(10 * np.log10((self.frames.T @ (v * v)) @ self.bands2 + _POWER_FLOOR), *LEVEL_DB).astype(np.float32)
+        return np.clip(_level_db((self.frames.T @ (v * v)) @ self.bands2), *LEVEL_DB).astype(np.float32)
 
     def mono_signal(self, y: np.ndarray) -> np.ndarray:
         """(1, S, B) float32 level in dB of a mono (n,) signal, on the feature frames."""
         return self.mono(stft(y, self.n_fft, self.hop * self.stride)[..., : self.n_picked])
+
+
+def _level_db(power: np.ndarray) -> np.ndarray:
+    """Band powers in dB, with the floor that maps silence to a finite value."""
+    return 10 * np.log10(power + _POWER_FLOOR)
 
 
 def _interleaved(spec: np.ndarray) -> np.ndarray:
