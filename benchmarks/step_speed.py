@@ -7,7 +7,8 @@ In one process it measures:
   per source, the inverse FFT of the two ears) plus one STFT/ISTFT pair;
 - re-simulating the room with pyroomacoustics at every step (hybrid image sources + ray tracing at both
   ears, then convolution), which is how a user would wire it by hand.
-Usage: python benchmarks/step_speed.py [--episodes 30] [--resim 2]
+The env and the floor run in alternating chunks of episodes, so the ratio is measured under the same machine
+load. Usage: python benchmarks/step_speed.py [--episodes 30] [--resim 2] [--chunk 5]
 """
 
 from __future__ import annotations
@@ -95,6 +96,7 @@ def main() -> None:
     parser.add_argument("--episodes", type=int, default=30)
     parser.add_argument("--warmup", type=int, default=10)
     parser.add_argument("--resim", type=int, default=2, help="steps re-simulated with pyroomacoustics")
+    parser.add_argument("--chunk", type=int, default=5, help="episodes per chunk; the env and the floor alternate")
     args = parser.parse_args()
     from hearnav.env import HearNavEnv
 
@@ -103,9 +105,18 @@ def main() -> None:
     t0 = time.perf_counter()
     run_episodes(env, seeds[: args.warmup])
     print(f"warm-up: {args.warmup} episodes in {time.perf_counter() - t0:.1f} s (scene builds come from the cache)")
-    spent, steps, record = run_episodes(env, seeds[args.warmup:])
-    step_s = spent / steps
-    floor_s = floor_time(record) / steps
+    # The env and the floor alternate in chunks of episodes, so a change of machine speed during the run
+    # (these machines are shared) weighs on both alike. A chunk's windows (about 40 MB of response spectra)
+    # do not fit in the last-level cache, so the floor does not find the env's data cached.
+    step_total = floor_total = 0.0
+    steps = 0
+    measured = seeds[args.warmup:]
+    for k in range(0, len(measured), args.chunk):
+        spent, n, record = run_episodes(env, measured[k: k + args.chunk])
+        step_total += spent
+        steps += n
+        floor_total += floor_time(record)
+    step_s, floor_s = step_total / steps, floor_total / steps
     resim_s = resim_time(env, args.resim)
     print(f"env.step: {1 / step_s:8.1f} steps/s ({step_s * 1e3:.2f} ms)  [goal >= 300 steps/s]")
     print(f"floor:    {1 / floor_s:8.1f} steps/s ({floor_s * 1e3:.2f} ms) bare FFT mixing + one STFT/ISTFT pair")

@@ -48,6 +48,16 @@ class Window:
     reference: np.ndarray  # (n,) the target reference
     images: np.ndarray | None  # (n_sources, 2, n) every source's image, when asked for
 
+    def part(self, first: int, stop: int | None = None) -> Window:
+        """Samples [first, stop) of this window (views), as a window starting ``first`` samples later."""
+        cut = slice(first, stop)
+        return Window(self.start + first, self.mixture[..., cut], _part(self.target_image, cut),
+                      self.reference[..., cut], _part(self.images, cut))
+
+
+def _part(a: np.ndarray | None, cut: slice) -> np.ndarray | None:
+    return None if a is None else a[..., cut]
+
 
 class ListeningWorld:
     """A scene's responses ready for FFT mixing of windows of ``window`` samples."""
@@ -65,6 +75,8 @@ class ListeningWorld:
         self._spectra: OrderedDict[tuple[int, int, int], np.ndarray] = OrderedDict()
         self._max_spectra = max(16, spectra_bytes // (2 * (self.n_fft // 2 + 1) * 8))
         self._table: np.ndarray | None = None
+        self._references: np.ndarray | None = None  # (C, S, F) reference filter spectra, with the table
+        self._reference_fits: np.ndarray | None = None  # (C, S) bool: the filter lies within the history
 
     @property
     def warmup(self) -> int:
@@ -76,12 +88,14 @@ class ListeningWorld:
         return self.warmup + n_windows * self.window + self.fade
 
     def table_bytes(self, precision: str = "single") -> int:
-        """Memory that :meth:`precompute` needs for every response spectrum, in single or half precision."""
+        """Memory that :meth:`precompute` needs for every response spectrum and reference filter spectrum, in
+        single or half precision."""
         c, h, s = self.responses.early.shape[:3]
-        return c * h * s * 2 * (self.n_fft // 2 + 1) * _BYTES_PER_BIN[_check_precision(precision)]
+        return c * s * (h * 2 + 1) * (self.n_fft // 2 + 1) * _BYTES_PER_BIN[_check_precision(precision)]
 
     def precompute(self, precision: str = "single") -> None:
-        """Compute every response spectrum once and keep them, so no step pays an FFT for one.
+        """Compute every response spectrum and reference filter spectrum once and keep them, so no step pays an
+        FFT for one.
 
         ``"single"`` keeps complex64 spectra, ready to multiply; ``"half"`` keeps them in float16 at half the
         memory, converted back on every use.
@@ -89,19 +103,26 @@ class ListeningWorld:
         c, h, s = self.responses.early.shape[:3]
         n_bins = self.n_fft // 2 + 1
         half = _check_precision(precision) == "half"
-        table = np.empty((c, h, s, 2, n_bins, 2), np.float16) if half else np.empty((c, h, s, 2, n_bins), np.complex64)
+        table = _empty_spectra((c, h, s, 2, n_bins), half)
+        references = _empty_spectra((c, s, n_bins), half)
+        fits = np.zeros((c, s), bool)
         for cell in range(c):
             resp = np.repeat(self.responses.tail[cell][None].astype(np.float32), h, axis=0)  # (H, S, 2, L)
             resp[..., : self.responses.early.shape[-1]] += self.responses.early[cell].astype(np.float32)
-            spec = sfft.rfft(resp, self.n_fft, axis=-1).astype(np.complex64)
-            table[cell] = spec.view(np.float32).reshape(h, s, 2, n_bins, 2) if half else spec
-        self._table = table
+            _store(table, cell, sfft.rfft(resp, self.n_fft, axis=-1))
+            filters = np.zeros((s, self.n_fft), np.float32)
+            for spot in range(s):
+                first, taps = self._reference_filter(cell, spot)
+                fits[cell, spot] = self._filter_fits(first)
+                if fits[cell, spot]:
+                    filters[spot, first: first + FD_TAPS] = taps
+            _store(references, cell, sfft.rfft(filters, axis=-1))
+        self._table, self._references, self._reference_fits = table, references, fits
 
     def spectrum(self, cell: int, heading: int, spot: int) -> np.ndarray:
         """(2, F) complex64 spectrum of a response: from the precomputed table, else a bounded LRU cache."""
         if self._table is not None:
-            entry = self._table[cell, heading, spot]
-            return entry if entry.dtype == np.complex64 else entry.astype(np.float32).view(np.complex64)[..., 0]
+            return _complex(self._table[cell, heading, spot])
         key = (cell, heading, spot)
         spec = self._spectra.get(key)
         if spec is None:
@@ -165,11 +186,13 @@ class ListeningWorld:
     def reference_spectrum(self, cell: int, spot: int) -> np.ndarray | None:
         """(F,) complex64 spectrum of the reference filter on the render's FFT grid (cached), or None when the
         filter reaches past the render's history (the reference is then filtered in the time domain)."""
+        if self._table is not None:
+            return _complex(self._references[cell, spot]) if self._reference_fits[cell, spot] else None
         key = (cell, -1, spot)
         spec = self._spectra.get(key)
         if spec is None:
             first, taps = self._reference_filter(cell, spot)
-            if first < 0 or first + FD_TAPS > self.history + 1:
+            if not self._filter_fits(first):
                 return None
             h = np.zeros(self.n_fft, np.float32)
             h[first : first + FD_TAPS] = taps
@@ -178,6 +201,10 @@ class ListeningWorld:
         else:
             self._spectra.move_to_end(key)
         return spec
+
+    def _filter_fits(self, first: int) -> bool:
+        """Whether a reference filter starting at tap ``first`` lies within the render's history."""
+        return 0 <= first and first + FD_TAPS <= self.history + 1
 
     def _remember(self, key: tuple[int, int, int], spec: np.ndarray) -> None:
         self._spectra[key] = spec
@@ -205,6 +232,24 @@ def _rows(n: int) -> int:
     return -(-n // ROW_BLOCK) * ROW_BLOCK
 
 
+def _empty_spectra(shape: tuple[int, ...], half: bool) -> np.ndarray:
+    """An uninitialised table of complex spectra: complex64, or float16 (real, imaginary) pairs when ``half``."""
+    return np.empty((*shape, 2), np.float16) if half else np.empty(shape, np.complex64)
+
+
+def _store(table: np.ndarray, index: int, spectra: np.ndarray) -> None:
+    """Write complex spectra into row ``index`` of a table made by :func:`_empty_spectra`."""
+    if table.dtype == np.float16:
+        table[index] = spectra.astype(np.complex64).view(np.float32).reshape(table[index].shape)
+    else:
+        table[index] = spectra
+
+
+def _complex(entry: np.ndarray) -> np.ndarray:
+    """A table entry as complex64 spectra (a view in single precision, converted from half)."""
+    return entry if entry.dtype == np.complex64 else entry.astype(np.float32).view(np.complex64)[..., 0]
+
+
 def _check_precision(precision: str) -> str:
     if precision not in _BYTES_PER_BIN:
         raise ConfigError(f"precision must be one of {', '.join(map(repr, _BYTES_PER_BIN))} (got {precision!r})")
@@ -227,7 +272,7 @@ class ListeningSession:
         self.target_image = target_image
         self.time = world.warmup
         self._tail: Window | None = None
-        self._ramp = _ramp(world.fade).astype(np.float32)
+        self._fade_out = (1.0 - _ramp(world.fade)).astype(np.float32)
         self._seg: np.ndarray | None = None
 
     def _current_seg(self) -> np.ndarray:
@@ -239,7 +284,7 @@ class ListeningSession:
         """The current window at any pose, without moving or advancing time (no cross-fade)."""
         win = self.world.render(cell, heading, self.sources, self.time, self.target, self.all_images,
                                 self._current_seg(), self.target_image)
-        return _cut(win, self.world.window)
+        return win.part(0, self.world.window)
 
     def listen(self, cell: int, heading: int) -> Window:
         """The current window at a pose, cross-faded from the previous pose; then advance one window."""
@@ -247,33 +292,21 @@ class ListeningSession:
         span = w.render(cell, heading, self.sources, self.time, self.target, self.all_images, self._current_seg(),
                         self.target_image)
         if self._tail is not None and w.fade:
-            span = _blend(self._tail, span, self._ramp)
-        out = _cut(span, w.window)
-        self._tail = _shift(span, w.window)
+            span = _blend(self._tail, span, self._fade_out)
+        out = span.part(0, w.window)
+        self._tail = span.part(w.window)
         self.time += w.window
         self._seg = None
         return out
 
 
-def _fields(win: Window) -> dict[str, np.ndarray | None]:
-    return {"mixture": win.mixture, "target_image": win.target_image, "reference": win.reference, "images": win.images}
-
-
-def _cut(win: Window, n: int) -> Window:
-    """The first n samples of a span."""
-    return Window(win.start, **{k: (None if v is None else v[..., :n]) for k, v in _fields(win).items()})
-
-
-def _shift(win: Window, n: int) -> Window:
-    """The samples of a span after its first n (the start of the next window at the old pose)."""
-    return Window(win.start + n, **{k: (None if v is None else v[..., n:]) for k, v in _fields(win).items()})
-
-
-def _blend(old: Window, new: Window, ramp: np.ndarray) -> Window:
-    """Cross-fade the first len(ramp) samples of ``new`` from ``old``, in place (``new`` is a fresh render)."""
-    m = len(ramp)
-    for k, v in _fields(new).items():
-        o = _fields(old)[k]
+def _blend(old: Window, new: Window, fade_out: np.ndarray) -> Window:
+    """Cross-fade the first len(fade_out) samples of ``new`` from ``old``, in place (``new`` is a fresh render):
+    old * fade_out + new * (1 - fade_out)."""
+    m = len(fade_out)
+    for v, o in ((new.mixture, old.mixture), (new.reference, old.reference), (new.target_image, old.target_image),
+                 (new.images, old.images)):
         if v is not None and o is not None:
-            v[..., :m] = o[..., :m] * (1 - ramp) + v[..., :m] * ramp
+            head = v[..., :m]
+            head += (o[..., :m] - head) * fade_out
     return new

@@ -264,6 +264,26 @@ def test_precomputed_spectra_equal_the_direct_fft(responses, precision, tol):
     assert np.abs(got - want).max() <= tol * np.abs(want).max()
 
 
+@pytest.mark.parametrize("precision, tol", [("single", 1e-6), ("half", 2e-3)])
+def test_precomputed_reference_spectra_equal_the_direct_fft(responses, precision, tol):
+    # scipy.fft.rfft of the reference filter on the render's grid (the on-demand path) is the reference; a filter
+    # that does not fit the history has no spectrum in either path, and the render then filters in time.
+    direct, lw = ListeningWorld(responses, WINDOW), ListeningWorld(responses, WINDOW)
+    lw.precompute(precision)
+    n_cells, _, n_spots = responses.early.shape[:3]
+    for cell in range(0, n_cells, max(1, n_cells // 12)):
+        for spot in range(n_spots):
+            want, got = direct.reference_spectrum(cell, spot), lw.reference_spectrum(cell, spot)
+            assert (want is None) == (got is None), (cell, spot)
+            if want is not None:
+                assert got.dtype == np.complex64
+                assert np.abs(got - want).max() <= tol * np.abs(want).max(), (cell, spot)
+    sources = noise_sources(lw)
+    win = lw.render(GENERIC, 1, sources, lw.warmup, target=1)
+    np.testing.assert_allclose(win.reference, lw.reference(GENERIC, sources[1], lw.warmup), atol=2e-5 if
+                               precision == "single" else 2e-3)
+
+
 def test_unknown_precision_is_an_error(world):
     with pytest.raises(ConfigError, match=r"precision must be one of 'single', 'half' \(got 'double'\)"):
         world.precompute("double")

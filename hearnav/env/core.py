@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from typing import Any
 
 import gymnasium as gym
@@ -16,12 +17,12 @@ from hearnav.env.episode import (
     render_signals,
 )
 from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor
-from hearnav.env.patch import egocentric_patch, occupancy_patch, visible_sources
+from hearnav.env.patch import PoseViews
 from hearnav.env.worlds import World, get_world, resolve_scenes
 from hearnav.errors import ConfigError, HearnavError, SeparatorError
 from hearnav.listening import FADE_S, ListeningSession, Source, Window
 from hearnav.separation import SeparationContext, get_separator
-from hearnav.separation.metrics import si_sdr_unchecked
+from hearnav.separation.metrics import si_sdr_rows_unchecked
 from hearnav.separation.stft import stft
 
 FORWARD, TURN_LEFT, TURN_RIGHT, STAY = 0, 1, 2, 3
@@ -43,9 +44,29 @@ def scored_part(window: Window, fade: int) -> Window:
     Scoring only what follows the cross-fade makes a pose's score at a time independent of where the
     listener came from, so look-ahead scores and the oracle bound are exact.
     """
-    cut = lambda a: None if a is None else a[..., fade:]  # noqa: E731
-    return Window(window.start + fade, cut(window.mixture), cut(window.target_image), cut(window.reference),
-                  cut(window.images))
+    return window.part(fade)
+
+
+def _scores(separator: str, reference: np.ndarray, *estimates: np.ndarray) -> list[float | None]:
+    """SI-SDR in dB of each estimate against one reference, or None for each when the reference is silent.
+
+    Raises
+    ------
+    SeparatorError
+        The first estimate (the separator's) is not finite.
+    """
+    rows = np.empty((len(estimates), reference.shape[-1]), np.float64)
+    for row, estimate in zip(rows, estimates):
+        row[...] = estimate
+    powers = np.einsum("kn,kn->k", rows, rows)
+    if not math.isfinite(powers[0]):  # float32 samples squared cannot overflow float64: only NaN or inf does
+        raise SeparatorError(f"separator {separator!r} must return a finite ({reference.shape[-1]},) estimate, "
+                             f"got {int(np.sum(~np.isfinite(rows[0])))} NaN or infinite samples")
+    ref = reference.astype(np.float64)
+    energy = float(np.dot(ref, ref))
+    if energy <= SILENT_ENERGY:
+        return [None] * len(estimates)
+    return si_sdr_rows_unchecked(rows, ref, energy, powers)
 
 
 class HearNavEnv(gym.Env):
@@ -156,7 +177,7 @@ class HearNavEnv(gym.Env):
         self.plan: EpisodePlan | None = None
         self._session: ListeningSession | None = None
         self._path: list[tuple[int, int]] = []
-        self._occupancy: dict[tuple[str, int, int], np.ndarray] = {}
+        self._views: dict[str, PoseViews] = {}
         self._fov = float(np.deg2rad(cfg.fov_deg))
 
     # -- episode -----------------------------------------------------------------------------------------------
@@ -184,9 +205,10 @@ class HearNavEnv(gym.Env):
         self.cell, self.heading = plan.start_cell, plan.start_heading
         self.steps = 0
         self._path = [(self.cell, self.heading)]
-        spot_ids = [p.spot for p in plan.sources]
-        self._spots = spot_ids, np.array([world.scene.spots[k].position[:2] for k in spot_ids])
+        self._spot_ids = [p.spot for p in plan.sources]
+        self._target_xy = tuple(world.scene.spots[self._spot_ids[0]].position[:2].tolist())
         self._maps: dict[tuple[int, int], np.ndarray] = {}
+        self._pose_views()  # the scene's static maps, computed on its first episode
         self._source_info = [p.info(world.scene) for p in plan.sources]
         self.si_sdr_db = None
         for _ in range(MAX_LEAD_IN + 1):  # a target that starts in a pause: listen on until it sounds
@@ -240,22 +262,23 @@ class HearNavEnv(gym.Env):
         self._spec = stft(scored.mixture, *self._stft)  # shared by the separator and the features
         self._spec.flags.writeable = False
         ctx = self._context(self._bearing[1], scored, known_stft=(scored.mixture, self._spec))
-        estimate, score = self._score_scored(scored, ctx)
+        estimate = self._separate(scored, ctx)
         self._estimate = estimate
         self._estimate_spec = ctx.spectrum_of(estimate)
+        score, ear = _scores(self.separator.name, scored.reference, estimate, self._ear.fn(scored.mixture, ctx))
         self.target_active = score is not None
         if score is not None:
-            self.si_sdr_db = score
-            self.mixture_si_sdr_db = si_sdr_unchecked(self._ear.fn(scored.mixture, ctx), scored.reference)
+            self.si_sdr_db, self.mixture_si_sdr_db = score, ear
 
     # -- separation ----------------------------------------------------------------------------------------------
 
     def target_bearing(self, cell: int, heading: int) -> tuple[float, float]:
         """Distance (m) and bearing (radians, counter-clockwise from the heading) of the target spot."""
         grid = self.world.grid
-        d = self.world.scene.spots[self.plan.sources[0].spot].position[:2] - grid.centers[cell]
-        bearing = float(np.arctan2(d[1], d[0]) - grid.heading_angle(heading))
-        return float(np.hypot(*d)), float((bearing + np.pi) % (2 * np.pi) - np.pi)
+        x, y = grid.centers[cell].tolist()
+        tx, ty = self._target_xy
+        bearing = math.atan2(ty - y, tx - x) - grid.heading_angle(heading)
+        return math.hypot(tx - x, ty - y), (bearing + math.pi) % (2 * math.pi) - math.pi
 
     def context(self, cell: int, heading: int, window: Window | None = None,
                 known_stft: tuple[np.ndarray, np.ndarray] | None = None) -> SeparationContext:
@@ -280,23 +303,31 @@ class HearNavEnv(gym.Env):
 
     def _score_scored(self, window: Window, ctx: SeparationContext) -> tuple[np.ndarray, float | None]:
         """:meth:`score_window` of a window already cut to its scored part."""
+        estimate = self._separate(window, ctx)
+        return estimate, _scores(self.separator.name, window.reference, estimate)[0]
+
+    def _separate(self, window: Window, ctx: SeparationContext) -> np.ndarray:
+        """The separator's (n,) float32 estimate of a scored window, its shape checked (:func:`_scores` checks
+        that it is finite)."""
         estimate = np.asarray(self.separator.fn(window.mixture, ctx), np.float32)  # our own input: no re-checks
-        if estimate.shape != (window.mixture.shape[1],) or not np.isfinite(estimate).all():
+        if estimate.shape != (window.mixture.shape[1],):
             raise SeparatorError(f"separator {self.separator.name!r} must return a finite "
                                  f"({window.mixture.shape[1]},) estimate, got shape {estimate.shape}")
-        if float(np.dot(window.reference, window.reference)) <= SILENT_ENERGY:
-            return estimate, None
-        return estimate, si_sdr_unchecked(estimate, window.reference)
+        return estimate
 
     # -- observation -----------------------------------------------------------------------------------------
 
     def _obs(self) -> dict[str, np.ndarray]:
         dist, bearing = self._bearing
+        if self._estimate_spec is not None:  # the separator synthesised through the context (every built-in)
+            binaural, estimate = self.features.observe(self._spec, self._estimate_spec)
+        else:
+            binaural, estimate = self.features.binaural(self._spec), self.features.mono_signal(self._estimate)
         return {
-            "binaural": self.features.binaural(self._spec),
-            "estimate": self._estimate_levels(),
+            "binaural": binaural,
+            "estimate": estimate,
             "map": self._map(),
-            "target": np.array([min(dist, MAX_DISTANCE), np.sin(bearing), np.cos(bearing)], np.float32),
+            "target": np.array([min(dist, MAX_DISTANCE), math.sin(bearing), math.cos(bearing)], np.float32),
             "budget": np.array([1.0 - self.steps / self.config.budget], np.float32),
         }
 
@@ -304,31 +335,27 @@ class HearNavEnv(gym.Env):
         """The egocentric map at the current pose (memoised per pose for the episode: its sources stay put)."""
         pose = (self.cell, self.heading)
         if pose not in self._maps:
-            grid, cfg = self.world.grid, self.config
-            key = (self.plan.scene, *pose)
-            if key not in self._occupancy:
-                self._occupancy[key] = occupancy_patch(grid, self.cell, self.heading, cfg.patch_size)
-            spot_ids, spots = self._spots
-            los = self.world.responses.line_of_sight[self.cell, spot_ids]
-            seen = visible_sources(grid.centers[self.cell], grid.heading_angle(self.heading), spots, los, self._fov)
-            self._maps[pose] = egocentric_patch(grid, self.cell, self.heading, self._occupancy[key], spots[seen])
+            self._maps[pose] = self._pose_views().patch(*pose, self._spot_ids)
         return self._maps[pose].copy()
 
-    def _estimate_levels(self) -> np.ndarray:
-        """Band levels of the estimate: from the separator's output spectrum when it synthesised the estimate
-        through the context (every built-in does), else from the estimate's own STFT."""
-        if self._estimate_spec is not None:
-            return self.features.mono(self._estimate_spec[:, self.features.picked])
-        return self.features.mono_signal(self._estimate)
+    def _pose_views(self) -> PoseViews:
+        """The current scene's :class:`~hearnav.env.patch.PoseViews` (computed once per scene and process)."""
+        name = self.plan.scene
+        if name not in self._views:
+            world = self.world
+            spots = np.array([s.position[:2] for s in world.scene.spots])
+            self._views[name] = PoseViews(world.grid, spots, world.responses.line_of_sight, self.config.patch_size,
+                                          self._fov)
+        return self._views[name]
 
     def _info(self) -> dict[str, Any]:
         grid = self.world.grid
-        x, y = grid.centers[self.cell]
+        x, y = grid.centers[self.cell].tolist()
         return {
             "si_sdr_db": float(self.si_sdr_db),
             "mixture_si_sdr_db": float(self.mixture_si_sdr_db),
-            "pose": {"cell": int(self.cell), "x": float(x), "y": float(y), "heading": int(self.heading),
-                     "heading_deg": float(np.rad2deg(grid.heading_angle(self.heading)))},
+            "pose": {"cell": int(self.cell), "x": x, "y": y, "heading": int(self.heading),
+                     "heading_deg": math.degrees(grid.heading_angle(self.heading))},
             "collided": bool(self.collided),
             "target_active": bool(self.target_active),
             "step": int(self.steps),

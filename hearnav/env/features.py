@@ -85,6 +85,17 @@ class FeatureExtractor:
         self.bands_cross = np.concatenate([self.bands2 * parts[:, :1], self.bands2 * parts[:, 1:]], axis=1)  # (2F, 2B)
         self.frames = segment_matrix(starts + n_fft / 2, window, n_segments)  # (K, S)
         self.shape = (n_segments, n_bands)
+        self._low = np.array([LEVEL_DB[0], LEVEL_DB[0], ILD_DB[0]], np.float32)[:, None, None]  # clip of rows 0-2
+        self._high = np.array([LEVEL_DB[1], LEVEL_DB[1], ILD_DB[1]], np.float32)[:, None, None]
+        # Each segment's frames go to a slot of equal width (empty slots stay zero), so one reshaped sum
+        # averages them all: numpy sums a reshaped axis far faster than it multiplies by a (K, S) matrix.
+        seg = _segment_of(starts + n_fft / 2, window, n_segments)
+        counts = np.bincount(seg, minlength=n_segments)
+        self._width = int(counts.max())
+        first_of = np.concatenate([[0], np.cumsum(counts)[:-1]])
+        self._slots = seg * self._width + np.arange(len(seg)) - first_of[seg]  # (K,) slot of each picked frame
+        self._inverse_counts = (1.0 / counts).astype(np.float32)[:, None]  # (S, 1)
+        self._spare = np.setdiff1d(np.arange(n_segments * self._width), self._slots)  # slots no frame fills
 
     def binaural(self, spec: np.ndarray) -> np.ndarray:
         """(5, S, B) float32: left and right level (dB), ILD (dB), cos and sin of the IPD.
@@ -93,44 +104,89 @@ class FeatureExtractor:
         ----------
         spec : (2, F, T) complex64 STFT of the two ears (:func:`hearnav.separation.stft.stft` at ``hop``).
         """
-        v = _interleaved(spec[..., self.picked])  # (2, K, 2F): re, im, re, im, ...
-        n_bands = self.shape[1]
-        x = np.empty((3, *v.shape[1:]), np.float32)
-        np.multiply(v, v, out=x[0:2])  # a bin's pair summed: |L|^2, |R|^2
-        tf = v.view(np.complex64)
-        np.multiply(tf[0], np.conj(tf[1]), out=x[2].view(np.complex64))  # L R*, interleaved
-        y = self.frames.T @ x  # (3, S, 2F) frame averages
-        power = y[0:2] @ self.bands2  # (2, S, B)
-        cross = y[2] @ self.bands_cross  # (S, 2B): Re then Im of the band-summed L R*
-        level = _level_db(power)
-        re, im = cross[:, :n_bands], cross[:, n_bands:]
-        mag = np.hypot(re, im)
-        safe = np.where(mag > 0, mag, 1.0)
-        out = np.empty((5, *power.shape[1:]), np.float32)
-        np.clip(level, *LEVEL_DB, out=out[0:2])  # the ILD below is of the unclipped levels
-        np.clip(level[0] - level[1], *ILD_DB, out=out[2])
-        out[3] = np.where(mag > 0, re / safe, 1.0)  # cos and sin of the IPD; a zero cross-spectrum has IPD 0
-        out[4] = im / safe
-        return out
+        return self.observe(spec)[0]
+
+    def observe(self, ears: np.ndarray, *monos: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`binaural` of the ears and :meth:`mono` of each mono spectrum, in one pass.
+
+        Parameters
+        ----------
+        ears : (2, F, T) complex STFT of the two ears at ``hop``.
+        monos : (F, T) complex STFTs at ``hop`` of mono signals (the separator's estimate).
+
+        Returns
+        -------
+        (5, S, B) float32 binaural features and (len(monos), S, B) float32 levels in dB.
+        """
+        n = 2 + len(monos)
+        v = self._empty_slots(n, ears.shape[-2])  # (n, S * width, 2F): re, im, re, im, ...
+        cv = v.view(np.complex64)
+        cv[0:2, self._slots] = np.swapaxes(ears[..., self.picked], -1, -2)
+        for i, mono in enumerate(monos):
+            cv[2 + i, self._slots] = mono[..., self.picked].T
+        x = np.empty((n + 1, *v.shape[1:]), np.float32)
+        np.multiply(v, v, out=x[:n])  # a bin's pair summed later: |L|^2, |R|^2, |E|^2
+        np.multiply(cv[0], np.conj(cv[1]), out=x[n].view(np.complex64))  # L R*, interleaved
+        y = self._band_means(x)  # (n + 1, S, 2B): re-part and im-part band sums, frame-averaged
+        n_seg, n_bands = self.shape
+        levels = _level_db(y[:n, :, :n_bands] + y[:n, :, n_bands:])  # (n, S, B), unclipped
+        out = np.empty((5, n_seg, n_bands), np.float32)
+        np.subtract(levels[0], levels[1], out=out[2])  # the ILD is of the unclipped levels
+        out[0:2] = levels[0:2]
+        _clip(out[0:3], self._low, self._high)
+        cross = y[n].reshape(n_seg, 2, n_bands).transpose(1, 0, 2)  # (2, S, B): Re, Im of the band-summed L R*
+        mag = np.hypot(cross[0], cross[1])
+        silent = mag == 0  # a zero cross-spectrum has IPD 0: cos 1, sin 0
+        mag += silent
+        np.divide(cross, mag, out=out[3:5])  # cos and sin of the IPD
+        out[3] += silent
+        return out, _clip(levels[2:], *LEVEL_DB)
 
     def mono(self, spec: np.ndarray) -> np.ndarray:
-        """(1, S, B) float32 level in dB of a mono signal from its (F, K) complex64 feature frames."""
-        v = _interleaved(spec[None])
-        return np.clip(_level_db((self.frames.T @ (v * v)) @ self.bands2), *LEVEL_DB).astype(np.float32)
+        """(1, S, B) float32 level in dB of a mono signal from its (F, T) complex STFT at ``hop``."""
+        v = self._empty_slots(1, spec.shape[-2])
+        v.view(np.complex64)[0, self._slots] = spec[..., self.picked].T
+        return self._mono_levels(v)
 
     def mono_signal(self, y: np.ndarray) -> np.ndarray:
-        """(1, S, B) float32 level in dB of a mono (n,) signal, on the feature frames."""
-        return self.mono(stft(y, self.n_fft, self.hop * self.stride)[..., : self.n_picked])
+        """(1, S, B) float32 level in dB of a mono (n,) signal, on the feature frames (transformed directly at
+        the feature hop)."""
+        spec = stft(np.asarray(y, np.float32), self.n_fft, self.hop * self.stride)
+        v = self._empty_slots(1, spec.shape[-2])
+        v.view(np.complex64)[0, self._slots] = spec[:, : self.n_picked].T
+        return self._mono_levels(v)
+
+    def _mono_levels(self, v: np.ndarray) -> np.ndarray:
+        y = self._band_means(v * v)
+        n_bands = self.shape[1]
+        return _clip(_level_db(y[..., :n_bands] + y[..., n_bands:]).astype(np.float32), *LEVEL_DB)
+
+    def _empty_slots(self, channels: int, n_bins: int) -> np.ndarray:
+        """(channels, S * width, 2 n_bins) float32 slots for feature frames, real and imaginary parts
+        interleaved: frame k of the picked frames goes to slot ``_slots[k]``; the slots left over are zero, the
+        others are left for the caller to fill."""
+        out = np.empty((channels, self._slots[-1] + 1, 2 * n_bins), np.float32)
+        out[:, self._spare] = 0.0
+        return out
+
+    def _band_means(self, x: np.ndarray) -> np.ndarray:
+        """(C, S, 2B) frame-averaged band sums of (C, S * width, 2F) slotted powers, real-part bins in the first
+        B columns and imaginary-part bins in the last B."""
+        c, _, n = x.shape
+        sums = x.reshape(c, -1, self._width, n).sum(axis=2)  # (C, S, 2F)
+        return (sums.reshape(-1, n) @ self.bands_cross).reshape(c, -1, self.bands_cross.shape[1]) * \
+            self._inverse_counts
 
 
-def _level_db(power: np.ndarray) -> np.ndarray:
-    """Band powers in dB, with the floor that maps silence to a finite value."""
-    return 10 * np.log10(power + _POWER_FLOOR)
+def _clip(x: np.ndarray, low: float | np.ndarray, high: float | np.ndarray) -> np.ndarray:
+    """Clip ``x`` to [low, high] in place (two ufunc calls: numpy's clip is slower on small arrays)."""
+    np.maximum(x, low, out=x)
+    return np.minimum(x, high, out=x)
 
 
-def _interleaved(spec: np.ndarray) -> np.ndarray:
-    """(..., T, 2F) float32 view (or copy) of (..., F, T) complex spectra, real and imaginary parts interleaved."""
-    tf = np.swapaxes(spec, -1, -2)  # a view with contiguous bins for hearnav's stft output
-    if tf.dtype != np.complex64 or tf.strides[-1] != tf.itemsize:
-        tf = np.ascontiguousarray(tf, dtype=np.complex64)
-    return tf.view(np.float32)
+def _level_db(power: np.ndarray, out: np.ndarray | None = None) -> np.ndarray:
+    """Band powers in dB, with the floor that maps silence to a finite value (``power`` is overwritten)."""
+    power += _POWER_FLOOR
+    out = np.log10(power, out=out)
+    out *= 10
+    return out

@@ -46,33 +46,40 @@ def occupancy_patch(grid: Grid, cell: int, heading: int, size: int) -> np.ndarra
     return out
 
 
-def egocentric_patch(grid: Grid, cell: int, heading: int, occupancy: np.ndarray, visible_xy: np.ndarray) -> np.ndarray:
-    """(2, size, size) float32: channel 0 is the :func:`occupancy_patch` of the pose, channel 1 marks visible
-    sources.
+class PoseViews:
+    """Egocentric maps of every pose of a scene, computed once: each pose's occupancy and where each spot shows.
 
     Parameters
     ----------
-    occupancy : (size, size) the pose's :func:`occupancy_patch`.
-    visible_xy : (k, 2) positions (m) of the sources in line of sight and in the field of view.
+    grid : the scene's grid.
+    spots_xy : (n_spots, 2) spot positions (m).
+    line_of_sight : (n_cells, n_spots) bool, a spot in line of sight of a cell centre.
+    size : patch side in cells (odd).
+    fov_rad : field of view, radians: a spot shows when in line of sight and within half of it of the heading.
     """
-    size = occupancy.shape[0]
-    half = size // 2
-    out = np.zeros((2, size, size), np.float32)
-    out[0] = occupancy
-    angle = grid.heading_angle(heading)
-    f = np.array([np.cos(angle), np.sin(angle)])
-    for xy in np.asarray(visible_xy, float).reshape(-1, 2):
-        d = (xy - grid.centers[cell]) / grid.spacing
-        r, c = int(round(half - d @ f)), int(round(half - d @ np.array([-f[1], f[0]])))
-        if 0 <= r < size and 0 <= c < size:
-            out[1, r, c] = 1.0
-    return out
 
+    def __init__(self, grid: Grid, spots_xy: np.ndarray, line_of_sight: np.ndarray, size: int, fov_rad: float):
+        self.size = size
+        self.occupancy = np.stack([np.stack([occupancy_patch(grid, c, h, size) for h in range(grid.n_headings)])
+                                   for c in range(grid.n_cells)])  # (C, H, P, P)
+        angles = 2.0 * np.pi * np.arange(grid.n_headings) / grid.n_headings  # (H,)
+        d = np.asarray(spots_xy, float)[None] - grid.centers[:, None]  # (C, S, 2)
+        bearing = np.arctan2(d[..., 1], d[..., 0])[:, None, :] - angles[None, :, None]  # (C, H, S)
+        seen = line_of_sight[:, None, :] & (np.abs((bearing + np.pi) % (2 * np.pi) - np.pi) <= fov_rad / 2 + 1e-9)
+        cells = d / grid.spacing
+        cos, sin = np.cos(angles)[None, :, None], np.sin(angles)[None, :, None]
+        ahead = cells[:, None, :, 0] * cos + cells[:, None, :, 1] * sin  # (C, H, S) cells ahead
+        left = cells[:, None, :, 1] * cos - cells[:, None, :, 0] * sin  # cells to the left
+        half = size // 2
+        row, col = np.rint(half - ahead).astype(np.int64), np.rint(half - left).astype(np.int64)
+        inside = seen & (row >= 0) & (row < size) & (col >= 0) & (col < size)
+        self.pixel = np.where(inside, row * size + col, -1)  # (C, H, S): flat patch index, -1 = not shown
 
-def visible_sources(listener_xy: np.ndarray, heading_angle: float, sources_xy: np.ndarray,
-                    line_of_sight: np.ndarray, fov_rad: float) -> np.ndarray:
-    """(n_sources,) bool: in line of sight and within half the field of view of the heading."""
-    d = sources_xy - listener_xy
-    bearing = np.arctan2(d[:, 1], d[:, 0]) - heading_angle
-    off_axis = np.abs((bearing + np.pi) % (2 * np.pi) - np.pi)
-    return line_of_sight & (off_axis <= fov_rad / 2 + 1e-9)
+    def patch(self, cell: int, heading: int, spots: list[int]) -> np.ndarray:
+        """(2, size, size) float32: channel 0 the pose's :func:`occupancy_patch`, channel 1 marks the given spots
+        the pose shows."""
+        out = np.zeros((2, self.size, self.size), np.float32)
+        out[0] = self.occupancy[cell, heading]
+        pixel = self.pixel[cell, heading, spots]
+        out[1].reshape(-1)[pixel[pixel >= 0]] = 1.0
+        return out

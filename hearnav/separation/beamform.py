@@ -85,5 +85,22 @@ def apply_weights(w: np.ndarray, spec: np.ndarray) -> np.ndarray:
     -------
     (F, T) output spectrum, in the precision of ``spec`` (the weights are cast to it).
     """
-    w = np.conj(w).astype(np.result_type(spec.dtype, np.complex64), copy=False)
-    return w[:, 0, None] * spec[0] + w[:, 1, None] * spec[1]
+    return combine(np.conj(w.T).astype(np.result_type(spec.dtype, np.complex64), copy=False), spec)
+
+
+def combine(wh: np.ndarray, spec: np.ndarray) -> np.ndarray:
+    """Y = sum over ears of wh[e] X_e, for conjugate weights already laid out per ear.
+
+    Parameters
+    ----------
+    wh : (2, F) conjugate weights w^H, in the precision of ``spec``.
+    spec : (2, F, T) ear spectra.
+
+    Returns
+    -------
+    (F, T) output spectrum (a view of a frame-major array, as :func:`hearnav.separation.stft.stft` makes).
+    """
+    frames = np.swapaxes(spec, -1, -2)  # (2, T, F): contiguous bins for hearnav's stft output
+    out = frames[0] * wh[0]
+    out += frames[1] * wh[1]
+    return np.swapaxes(out, -1, -2)

@@ -20,6 +20,9 @@ from hearnav.separation.stft import (
 )
 
 
+_REAL = (int, float, np.integer, np.floating)
+
+
 @dataclass(frozen=True)
 class SeparationContext:
     """Side information for one separator call.
@@ -49,14 +52,12 @@ class SeparationContext:
     _synthesised: list = field(default_factory=list, init=False, compare=False, repr=False)
 
     def __post_init__(self) -> None:
-        for name in ("fs", "azimuth", "radius", "c"):
-            value = getattr(self, name)
-            if isinstance(value, bool) or not isinstance(value, (int, float, np.integer, np.floating)) \
+        for name, value in (("fs", self.fs), ("azimuth", self.azimuth), ("radius", self.radius), ("c", self.c)):
+            if not (type(value) is float or (isinstance(value, _REAL) and not isinstance(value, bool))) \
                     or not math.isfinite(value):
                 raise ConfigError(f"SeparationContext.{name} must be a finite number, got {value!r}")
-        for name in ("fs", "radius", "c"):
-            if getattr(self, name) <= 0:
-                raise ConfigError(f"SeparationContext.{name} must be positive, got {getattr(self, name)!r}")
+            if value <= 0 and name != "azimuth":
+                raise ConfigError(f"SeparationContext.{name} must be positive, got {value!r}")
         check_stft_settings(self.n_fft, self.hop)
         if self.target_image is not None:
             shape = np.shape(self.target_image)
@@ -95,6 +96,12 @@ class SeparationContext:
         """The (F, T) spectrum :meth:`synthesise` made ``signal`` from, or None if it did not make that array."""
         return self._synthesised[1] if self._synthesised and self._synthesised[0] is signal else None
 
+    def das_conjugate(self) -> np.ndarray:
+        """(2, F) conjugate delay-and-sum weights w^H, w = d / (d^H d) of :meth:`steering`, complex64 (read-only,
+        cached)."""
+        return _das_conjugate(float(self.azimuth), float(self.fs), int(self.n_fft), float(self.radius),
+                              float(self.c))
+
     def steering(self) -> np.ndarray:
         """(F, 2) steering vector of the target direction on the STFT bins (read-only, cached)."""
         return _steering(float(self.azimuth), float(self.fs), int(self.n_fft), float(self.radius), float(self.c))
@@ -117,3 +124,18 @@ def _steering(azimuth: float, fs: float, n_fft: int, radius: float, c: float) ->
     d = np.ascontiguousarray((shadow * np.exp(-1j * omega * head.woodworth_delay(beta, radius, c)[:, None])).T)
     d.flags.writeable = False
     return d
+
+
+@lru_cache(maxsize=4096)
+def _das_conjugate(azimuth: float, fs: float, n_fft: int, radius: float, c: float) -> np.ndarray:
+    """:meth:`SeparationContext.das_conjugate`: with d = H exp(-j omega tau) per ear, w^H = conj(H) exp(j omega tau)
+    / sum |H|^2 (|d| = |H|), computed directly rather than from the cached steering vector."""
+    omega, low, high = _shadow_basis(fs, n_fft, radius, c)
+    beta = ear_betas(azimuth)  # (2,)
+    shadow = low + head.shadow_alpha(beta)[:, None] * high  # (2, F)
+    phase = omega * head.woodworth_delay(beta, radius, c)[:, None]  # (2, F)
+    norm = 1.0 / (shadow.real ** 2 + shadow.imag ** 2).sum(axis=0)  # (F,)
+    w = np.conj(shadow) * (np.cos(phase) + 1j * np.sin(phase)) * norm
+    w = w.astype(np.complex64)
+    w.flags.writeable = False
+    return w

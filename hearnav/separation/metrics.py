@@ -79,15 +79,42 @@ def _core(est: np.ndarray, ref: np.ndarray, energy: np.ndarray) -> np.ndarray:
     return 10 * np.log10(np.clip(ratio, 1 / _RATIO, _RATIO))
 
 
-def si_sdr_unchecked(estimate: np.ndarray, reference: np.ndarray) -> float:
+#: Above this SI-SDR ratio (60 dB) the closed-form error energy ||est||^2 - <est, ref>^2 / ||ref||^2 loses digits
+#: to cancellation, so :func:`si_sdr_unchecked` computes the error sample by sample instead.
+_CLOSED_FORM_MAX = 1e6
+
+
+def si_sdr_unchecked(estimate: np.ndarray, reference: np.ndarray, energy: float | None = None) -> float:
     """:func:`si_sdr` without input checks, for callers that guarantee finite (n,) inputs and a sounding
-    reference (the environment's hot path): the same formula and clipping on Python floats."""
+    reference (the environment's hot path): the same formula and clipping on Python floats.
+
+    ``energy`` is ||reference||^2 when the caller already has it. The error energy ||alpha ref - est||^2 =
+    ||est||^2 - <est, ref>^2 / ||ref||^2 comes from the inner products, except above 60 dB, where it is computed
+    from the error signal.
+    """
     est, ref = np.asarray(estimate, np.float64), np.asarray(reference, np.float64)
-    energy = float(np.dot(ref, ref))
-    alpha = float(np.dot(est, ref)) / energy
-    num = alpha * alpha * energy  # ||alpha ref||^2
-    err = alpha * ref - est
-    den = float(np.dot(err, err))
+    if energy is None:
+        energy = float(np.dot(ref, ref))
+    return _from_products(float(np.dot(est, ref)), float(np.dot(est, est)), energy, est, ref)
+
+
+def si_sdr_rows_unchecked(estimates: np.ndarray, reference: np.ndarray, energy: float,
+                          powers: np.ndarray | None = None) -> list[float]:
+    """:func:`si_sdr_unchecked` of each row of (k, n) float64 estimates against one (n,) float64 reference of
+    energy ``energy``, from one matrix-vector product; ``powers`` are the rows' energies if already known."""
+    cross = estimates @ reference
+    if powers is None:
+        powers = np.einsum("kn,kn->k", estimates, estimates)
+    return [_from_products(c, p, energy, e, reference) for c, p, e in zip(cross.tolist(), powers.tolist(), estimates)]
+
+
+def _from_products(cross: float, power: float, energy: float, est: np.ndarray, ref: np.ndarray) -> float:
+    """SI-SDR in dB from <est, ref>, ||est||^2 and ||ref||^2 (the signals serve above 60 dB)."""
+    num = cross * cross / energy  # ||alpha ref||^2
+    den = power - num
+    if den <= num / _CLOSED_FORM_MAX:
+        err = (cross / energy) * ref - est
+        den = float(np.dot(err, err))
     if den <= 0.0:
         return -CLIP_DB if num == 0.0 else CLIP_DB
     return 10 * math.log10(min(max(num / den, 1 / _RATIO), _RATIO))

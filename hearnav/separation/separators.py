@@ -17,14 +17,12 @@ far-field steering vector (:mod:`hearnav.separation.steering`) at ``ctx.azimuth`
 
 from __future__ import annotations
 
-from functools import lru_cache
-
 import numpy as np
 
 from hearnav.errors import SeparatorError
 from hearnav.separation.beamform import (
     apply_weights,
-    das_weights,
+    combine,
     mvdr_weights,
     spatial_covariance,
 )
@@ -34,19 +32,6 @@ from hearnav.separation.registry import register_separator
 
 #: |sin(azimuth)| below which the target counts as straight ahead or behind for the ``ear`` separator.
 _MEDIAN_TOL = 1e-9
-
-
-def _das(ctx: SeparationContext) -> np.ndarray:
-    """(F, 2) read-only delay-and-sum weights towards ``ctx.azimuth``, in single precision (cached)."""
-    return _das_weights(float(ctx.azimuth), float(ctx.fs), int(ctx.n_fft), float(ctx.radius), float(ctx.c))
-
-
-@lru_cache(maxsize=4096)
-def _das_weights(azimuth: float, fs: float, n_fft: int, radius: float, c: float) -> np.ndarray:
-    ctx = SeparationContext(fs=fs, azimuth=azimuth, n_fft=n_fft, radius=radius, c=c)
-    w = das_weights(ctx.steering()).astype(np.complex64)
-    w.flags.writeable = False
-    return w
 
 
 @register_separator("ear")
@@ -66,7 +51,7 @@ def better_ear(mixture: np.ndarray, ctx: SeparationContext) -> np.ndarray:
 def delay_and_sum(mixture: np.ndarray, ctx: SeparationContext) -> np.ndarray:
     """Delay-and-sum beamformer towards ``ctx.azimuth``."""
     spec = ctx.stft(mixture)
-    return ctx.synthesise(apply_weights(_das(ctx), spec), mixture.shape[1])
+    return ctx.synthesise(combine(ctx.das_conjugate(), spec), mixture.shape[1])
 
 
 @register_separator("mvdr")
@@ -82,7 +67,7 @@ def spatial_masking(mixture: np.ndarray, ctx: SeparationContext) -> np.ndarray:
     """Delay-and-sum output masked by the ILD/IPD match to the target direction."""
     spec = ctx.stft(mixture)
     d = ctx.steering()
-    out = apply_weights(_das(ctx), spec) * spatial_mask(spec, d)
+    out = combine(ctx.das_conjugate(), spec) * spatial_mask(spec, d)
     return ctx.synthesise(out, mixture.shape[1])
 
 
@@ -97,7 +82,7 @@ def oracle_mask(mixture: np.ndarray, ctx: SeparationContext) -> np.ndarray:
         raise SeparatorError(f"separator 'oracle-mask' needs a finite target_image of the mixture's shape "
                              f"{mixture.shape}, got {image.shape}")
     spec = ctx.stft(mixture)
-    w = _das(ctx)
-    out = apply_weights(w, spec)
-    target = apply_weights(w, ctx.stft(image))
+    wh = ctx.das_conjugate()
+    out = combine(wh, spec)
+    target = combine(wh, ctx.stft(image).astype(spec.dtype, copy=False))
     return ctx.synthesise(out * ratio_mask(target, out - target), mixture.shape[1])

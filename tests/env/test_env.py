@@ -255,3 +255,20 @@ def test_spectra_budget_picks_single_then_half_precision(make_env, monkeypatch):
         table = worlds.get_world(env.plan.scene, env.config.acoustics, env.window).listening._table
         assert (table is None) if dtype is None else (table.dtype == dtype)
     worlds.get_world.cache_clear()
+
+
+@pytest.mark.parametrize("bad", [np.nan, np.inf])
+def test_a_separator_returning_non_finite_samples_is_an_error(make_env, bad):
+    @register_separator("broken-test")
+    def broken(mixture, ctx):
+        out = mixture[0].copy()
+        out[:3] = bad
+        return out
+
+    try:
+        env = make_env(separator="broken-test")
+        with pytest.raises(SeparatorError, match=r"separator 'broken-test' must return a finite \(\d+,\) estimate, "
+                                                 r"got 3 NaN or infinite samples"):
+            env.reset(seed=0)
+    finally:
+        unregister_separator("broken-test")

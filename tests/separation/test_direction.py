@@ -12,6 +12,7 @@ from hearnav.separation import (
     gcc_phat,
     steering_vector,
 )
+from hearnav.separation.beamform import das_weights
 from hearnav.separation.direction import azimuth_from_itd, ear_betas, ear_delays
 from hearnav.separation.stft import stft_freqs
 
@@ -146,3 +147,15 @@ def test_context_steering_is_the_steering_vector_on_the_stft_bins(azimuth):
     # so the context's cached-basis form must equal steering_vector to rounding.
     ctx = SeparationContext(fs=FS, azimuth=azimuth)
     np.testing.assert_allclose(ctx.steering(), steering_vector(azimuth, stft_freqs(512, FS)), atol=1e-12)
+
+
+@pytest.mark.parametrize("azimuth", [0.0, 0.4, np.pi / 2, -2.5, np.pi])
+def test_context_das_conjugate_is_the_conjugate_delay_and_sum_weights(azimuth):
+    # Delay-and-sum w = d / (d^H d) (Van Trees 2002) of the steering vector; the context computes w^H directly in
+    # single precision, so it must match to single-precision rounding and pass the target undistorted.
+    ctx = SeparationContext(fs=FS, azimuth=azimuth)
+    d = steering_vector(azimuth, stft_freqs(512, FS))
+    wh = ctx.das_conjugate()
+    assert wh.dtype == np.complex64 and wh.shape == (2, 257) and not wh.flags.writeable
+    np.testing.assert_allclose(wh, np.conj(das_weights(d)).T, rtol=1e-6, atol=1e-7)
+    np.testing.assert_allclose(np.sum(wh * d.T, axis=0), 1.0, atol=1e-6)  # w^H d = 1
