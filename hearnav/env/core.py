@@ -22,7 +22,7 @@ from hearnav.env.worlds import World, get_world, resolve_scenes
 from hearnav.errors import ConfigError, HearnavError, SeparatorError
 from hearnav.listening import FADE_S, ListeningSession, Source, Window
 from hearnav.separation import SeparationContext, get_separator
-from hearnav.separation.metrics import si_sdr_rows_unchecked
+from hearnav.separation.metrics import si_sdr_unchecked
 from hearnav.separation.stft import stft
 
 FORWARD, TURN_LEFT, TURN_RIGHT, STAY = 0, 1, 2, 3
@@ -55,18 +55,18 @@ def _scores(separator: str, reference: np.ndarray, *estimates: np.ndarray) -> li
     SeparatorError
         The first estimate (the separator's) is not finite.
     """
-    rows = np.empty((len(estimates), reference.shape[-1]), np.float64)
-    for row, estimate in zip(rows, estimates):
-        row[...] = estimate
-    powers = np.einsum("kn,kn->k", rows, rows)
-    if not math.isfinite(powers[0]):  # float32 samples squared cannot overflow float64: only NaN or inf does
-        raise SeparatorError(f"separator {separator!r} must return a finite ({reference.shape[-1]},) estimate, "
-                             f"got {int(np.sum(~np.isfinite(rows[0])))} NaN or infinite samples")
     ref = reference.astype(np.float64)
     energy = float(np.dot(ref, ref))
     if energy <= SILENT_ENERGY:
-        return [None] * len(estimates)
-    return si_sdr_rows_unchecked(rows, ref, energy, powers)
+        scores = [None] * len(estimates)
+        finite = bool(np.isfinite(estimates[0]).all())
+    else:
+        scores = [si_sdr_unchecked(e, ref, energy) for e in estimates]
+        finite = math.isfinite(scores[0])  # a NaN or infinite sample makes the inner products, so the score, NaN
+    if not finite:
+        raise SeparatorError(f"separator {separator!r} must return a finite ({reference.shape[-1]},) estimate, "
+                             f"got {int(np.sum(~np.isfinite(estimates[0])))} NaN or infinite samples")
+    return scores
 
 
 class HearNavEnv(gym.Env):

