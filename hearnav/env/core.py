@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 from typing import Any
 
 import gymnasium as gym
@@ -67,6 +68,14 @@ def _scores(separator: str, reference: np.ndarray, *estimates: np.ndarray) -> li
         raise SeparatorError(f"separator {separator!r} must return a finite ({reference.shape[-1]},) estimate, "
                              f"got {int(np.sum(~np.isfinite(estimates[0])))} NaN or infinite samples")
     return scores
+
+
+@lru_cache(maxsize=32)
+def _pose_views(scene: str, settings: Any, window: int, size: int, fov_rad: float) -> PoseViews:
+    """The egocentric maps of every pose of a scene's world (see :func:`hearnav.env.worlds.get_world`)."""
+    world = get_world(scene, settings, window)
+    spots = np.array([s.position[:2] for s in world.scene.spots])
+    return PoseViews(world.grid, spots, world.responses.line_of_sight, size, fov_rad)
 
 
 class HearNavEnv(gym.Env):
@@ -177,7 +186,6 @@ class HearNavEnv(gym.Env):
         self.plan: EpisodePlan | None = None
         self._session: ListeningSession | None = None
         self._path: list[tuple[int, int]] = []
-        self._views: dict[str, PoseViews] = {}
         self._fov = float(np.deg2rad(cfg.fov_deg))
 
     # -- episode -----------------------------------------------------------------------------------------------
@@ -340,13 +348,8 @@ class HearNavEnv(gym.Env):
 
     def _pose_views(self) -> PoseViews:
         """The current scene's :class:`~hearnav.env.patch.PoseViews` (computed once per scene and process)."""
-        name = self.plan.scene
-        if name not in self._views:
-            world = self.world
-            spots = np.array([s.position[:2] for s in world.scene.spots])
-            self._views[name] = PoseViews(world.grid, spots, world.responses.line_of_sight, self.config.patch_size,
-                                          self._fov)
-        return self._views[name]
+        cfg = self.config
+        return _pose_views(self.plan.scene, cfg.acoustics, self.window, cfg.patch_size, self._fov)
 
     def _info(self) -> dict[str, Any]:
         grid = self.world.grid
