@@ -10,6 +10,7 @@ import gymnasium as gym
 import numpy as np
 from gymnasium import spaces
 
+from hearnav.acoustics import AcousticSettings
 from hearnav.env.config import EnvConfig, make_config
 from hearnav.env.episode import (
     EpisodePlan,
@@ -71,7 +72,7 @@ def _scores(separator: str, reference: np.ndarray, *estimates: np.ndarray) -> li
 
 
 @lru_cache(maxsize=32)
-def _pose_views(scene: str, settings: Any, window: int, size: int, fov_rad: float) -> PoseViews:
+def _scene_views(scene: str, settings: AcousticSettings, window: int, size: int, fov_rad: float) -> PoseViews:
     """The egocentric maps of every pose of a scene's world (see :func:`hearnav.env.worlds.get_world`)."""
     world = get_world(scene, settings, window)
     spots = np.array([s.position[:2] for s in world.scene.spots])
@@ -349,7 +350,7 @@ class HearNavEnv(gym.Env):
     def _pose_views(self) -> PoseViews:
         """The current scene's :class:`~hearnav.env.patch.PoseViews` (computed once per scene and process)."""
         cfg = self.config
-        return _pose_views(self.plan.scene, cfg.acoustics, self.window, cfg.patch_size, self._fov)
+        return _scene_views(self.plan.scene, cfg.acoustics, self.window, cfg.patch_size, self._fov)
 
     def _info(self) -> dict[str, Any]:
         grid = self.world.grid

@@ -129,7 +129,7 @@ class FeatureExtractor:
         np.multiply(cv[0], np.conj(cv[1]), out=x[n].view(np.complex64))  # L R*, interleaved
         y = self._band_means(x)  # (n + 1, S, 2B): re-part and im-part band sums, frame-averaged
         n_seg, n_bands = self.shape
-        levels = _level_db(y[:n, :, :n_bands] + y[:n, :, n_bands:])  # (n, S, B), unclipped
+        levels = self._band_levels(y[:n])  # (n, S, B), unclipped
         out = np.empty((5, n_seg, n_bands), np.float32)
         np.subtract(levels[0], levels[1], out=out[2])  # the ILD is of the unclipped levels
         out[0:2] = levels[0:2]
@@ -144,22 +144,24 @@ class FeatureExtractor:
 
     def mono(self, spec: np.ndarray) -> np.ndarray:
         """(1, S, B) float32 level in dB of a mono signal from its (F, T) complex STFT at ``hop``."""
-        v = self._empty_slots(1, spec.shape[-2])
-        v.view(np.complex64)[0, self._slots] = spec[..., self.picked].T
-        return self._mono_levels(v)
+        return self._mono_levels(spec, self.picked)
 
     def mono_signal(self, y: np.ndarray) -> np.ndarray:
         """(1, S, B) float32 level in dB of a mono (n,) signal, on the feature frames (transformed directly at
         the feature hop)."""
         spec = stft(np.asarray(y, np.float32), self.n_fft, self.hop * self.stride)
-        v = self._empty_slots(1, spec.shape[-2])
-        v.view(np.complex64)[0, self._slots] = spec[:, : self.n_picked].T
-        return self._mono_levels(v)
+        return self._mono_levels(spec, slice(0, self.n_picked))
 
-    def _mono_levels(self, v: np.ndarray) -> np.ndarray:
-        y = self._band_means(v * v)
+    def _mono_levels(self, spec: np.ndarray, frames: slice) -> np.ndarray:
+        """(1, S, B) float32 level in dB from the feature frames ``frames`` of an (F, T) complex STFT."""
+        v = self._empty_slots(1, spec.shape[-2])
+        v.view(np.complex64)[0, self._slots] = spec[:, frames].T
+        return _clip(self._band_levels(self._band_means(v * v)).astype(np.float32), *LEVEL_DB)
+
+    def _band_levels(self, y: np.ndarray) -> np.ndarray:
+        """(C, S, B) unclipped levels in dB of (C, S, 2B) :meth:`_band_means` of powers (re and im parts summed)."""
         n_bands = self.shape[1]
-        return _clip(_level_db(y[..., :n_bands] + y[..., n_bands:]).astype(np.float32), *LEVEL_DB)
+        return _level_db(y[..., :n_bands] + y[..., n_bands:])
 
     def _empty_slots(self, channels: int, n_bins: int) -> np.ndarray:
         """(channels, S * width, 2 n_bins) float32 slots for feature frames, real and imaginary parts
