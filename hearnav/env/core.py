@@ -20,6 +20,7 @@ from hearnav.env.episode import (
 )
 from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor
 from hearnav.env.patch import PoseViews
+from hearnav.env.poses import ScenePoses
 from hearnav.env.worlds import World, get_world, resolve_scenes
 from hearnav.errors import ConfigError, HearnavError, SeparatorError
 from hearnav.listening import FADE_S, ListeningSession, Source, Window
@@ -69,6 +70,15 @@ def _scores(separator: str, reference: np.ndarray, *estimates: np.ndarray) -> li
         raise SeparatorError(f"separator {separator!r} must return a finite ({reference.shape[-1]},) estimate, "
                              f"got {int(np.sum(~np.isfinite(estimates[0])))} NaN or infinite samples")
     return scores
+
+
+@lru_cache(maxsize=32)
+def _scene_poses(scene: str, settings: AcousticSettings, window: int) -> ScenePoses:
+    """Every spot's distance, bearing and delay-and-sum weights from every pose of a scene's world."""
+    world = get_world(scene, settings, window)
+    spots = np.array([s.position[:2] for s in world.scene.spots])
+    return ScenePoses.build(world.grid, spots, settings.fs, SeparationContext.n_fft, settings.head_radius,
+                            settings.speed_of_sound)
 
 
 @lru_cache(maxsize=32)
@@ -215,7 +225,7 @@ class HearNavEnv(gym.Env):
         self.steps = 0
         self._path = [(self.cell, self.heading)]
         self._spot_ids = [p.spot for p in plan.sources]
-        self._target_xy = tuple(world.scene.spots[self._spot_ids[0]].position[:2].tolist())
+        self._poses = _scene_poses(plan.scene, self.config.acoustics, self.window)  # computed on its first episode
         self._maps: dict[tuple[int, int], np.ndarray] = {}
         self._pose_views()  # the scene's static maps, computed on its first episode
         self._source_info = [p.info(world.scene) for p in plan.sources]
@@ -270,7 +280,7 @@ class HearNavEnv(gym.Env):
         scored = scored_part(self._window, self._fade)
         self._spec = stft(scored.mixture, *self._stft)  # shared by the separator and the features
         self._spec.flags.writeable = False
-        ctx = self._context(self._bearing[1], scored, known_stft=(scored.mixture, self._spec))
+        ctx = self.context(self.cell, self.heading, scored, known_stft=(scored.mixture, self._spec))
         estimate = self._separate(scored, ctx)
         self._estimate = estimate
         self._estimate_spec = ctx.spectrum_of(estimate)
@@ -282,23 +292,17 @@ class HearNavEnv(gym.Env):
     # -- separation ----------------------------------------------------------------------------------------------
 
     def target_bearing(self, cell: int, heading: int) -> tuple[float, float]:
-        """Distance (m) and bearing (radians, counter-clockwise from the heading) of the target spot."""
-        grid = self.world.grid
-        x, y = grid.centers[cell].tolist()
-        tx, ty = self._target_xy
-        bearing = math.atan2(ty - y, tx - x) - grid.heading_angle(heading)
-        return math.hypot(tx - x, ty - y), (bearing + math.pi) % (2 * math.pi) - math.pi
+        """Distance (m) and bearing (radians in [-pi, pi), counter-clockwise from the heading) of the target spot."""
+        spot = self._spot_ids[0]
+        return float(self._poses.distance[cell, spot]), float(self._poses.bearing[cell, heading, spot])
 
     def context(self, cell: int, heading: int, window: Window | None = None,
                 known_stft: tuple[np.ndarray, np.ndarray] | None = None) -> SeparationContext:
         """The separator's side information at a pose (the true target image only for privileged separators)."""
-        return self._context(self.target_bearing(cell, heading)[1], window, known_stft)
-
-    def _context(self, bearing: float, window: Window | None = None,
-                 known_stft: tuple[np.ndarray, np.ndarray] | None = None) -> SeparationContext:
-        """:meth:`context` for a target bearing already known."""
         image = window.target_image if (window is not None and self.separator.privileged) else None
-        return SeparationContext(fs=self.fs, azimuth=bearing, target_image=image, known_stft=known_stft,
+        spot, poses = self._spot_ids[0], self._poses
+        return SeparationContext(fs=self.fs, azimuth=float(poses.bearing[cell, heading, spot]), target_image=image,
+                                 known_stft=known_stft, known_das=poses.das[cell, heading, spot],
                                  radius=self.config.acoustics.head_radius, c=self.config.acoustics.speed_of_sound)
 
     def score_window(self, window: Window, cell: int, heading: int,

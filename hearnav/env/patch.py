@@ -6,6 +6,7 @@ import functools
 
 import numpy as np
 
+from hearnav.env.poses import spot_directions
 from hearnav.scene.grid import Grid
 
 
@@ -63,10 +64,9 @@ class PoseViews:
         self.occupancy = np.stack([np.stack([occupancy_patch(grid, c, h, size) for h in range(grid.n_headings)])
                                    for c in range(grid.n_cells)])  # (C, H, P, P)
         angles = 2.0 * np.pi * np.arange(grid.n_headings) / grid.n_headings  # (H,)
-        d = np.asarray(spots_xy, float)[None] - grid.centers[:, None]  # (C, S, 2)
-        bearing = np.arctan2(d[..., 1], d[..., 0])[:, None, :] - angles[None, :, None]  # (C, H, S)
-        seen = line_of_sight[:, None, :] & (np.abs((bearing + np.pi) % (2 * np.pi) - np.pi) <= fov_rad / 2 + 1e-9)
-        cells = d / grid.spacing
+        bearing = spot_directions(grid, spots_xy)[1]  # (C, H, S)
+        seen = line_of_sight[:, None, :] & (np.abs(bearing) <= fov_rad / 2 + 1e-9)
+        cells = (np.asarray(spots_xy, float)[None] - grid.centers[:, None]) / grid.spacing  # (C, S, 2)
         cos, sin = np.cos(angles)[None, :, None], np.sin(angles)[None, :, None]
         ahead = cells[:, None, :, 0] * cos + cells[:, None, :, 1] * sin  # (C, H, S) cells ahead
         left = cells[:, None, :, 1] * cos - cells[:, None, :, 0] * sin  # cells to the left

@@ -39,6 +39,9 @@ class SeparationContext:
     known_stft : optional ``(signal, spectrum)`` pair the caller has already transformed with these STFT
         settings (the environment's features need the mixture's STFT too); :meth:`stft` returns the spectrum
         for that very array instead of computing it again. The spectrum must be read-only.
+    known_das : optional read-only (2, F) complex64 :meth:`das_conjugate` weights for this azimuth that the
+        caller has already computed with :func:`das_conjugates` (the environment keeps them for every pose of a
+        scene); :meth:`das_conjugate` returns them instead of computing them.
     """
 
     fs: float
@@ -49,6 +52,7 @@ class SeparationContext:
     radius: float = head.HEAD_RADIUS
     c: float = 343.0
     known_stft: tuple[np.ndarray, np.ndarray] | None = field(default=None, compare=False, repr=False)
+    known_das: np.ndarray | None = field(default=None, compare=False, repr=False)
     _synthesised: list = field(default_factory=list, init=False, compare=False, repr=False)
 
     def __post_init__(self) -> None:
@@ -66,6 +70,8 @@ class SeparationContext:
                 raise ConfigError(f"SeparationContext.target_image must be a (2, n) array, got shape {shape}")
         if self.known_stft is not None:
             self._check_known_stft()
+        if self.known_das is not None:
+            self._check_known_das()
 
     def _check_known_stft(self) -> None:
         signal, spec = self.known_stft
@@ -73,6 +79,15 @@ class SeparationContext:
         if spec.shape != want or spec.flags.writeable:
             raise ConfigError(f"SeparationContext.known_stft must pair a signal with its read-only STFT of shape "
                               f"{want}, got shape {spec.shape}{' (writeable)' if spec.flags.writeable else ''}")
+
+    def _check_known_das(self) -> None:
+        w = self.known_das
+        want = (2, self.n_fft // 2 + 1)
+        if not isinstance(w, np.ndarray) or w.shape != want or w.dtype != np.complex64 or w.flags.writeable:
+            dtype = w.dtype if isinstance(w, np.ndarray) else type(w).__name__
+            raise ConfigError(f"SeparationContext.known_das must be read-only complex64 weights of shape {want} "
+                              f"(from das_conjugates), got {dtype} of shape {np.shape(w)}"
+                              f"{' (writeable)' if isinstance(w, np.ndarray) and w.flags.writeable else ''}")
 
     def stft(self, x: np.ndarray) -> np.ndarray:
         """(..., F, T) STFT of ``x`` with this context's settings (:func:`hearnav.separation.stft.stft`).
@@ -99,7 +114,9 @@ class SeparationContext:
 
     def das_conjugate(self) -> np.ndarray:
         """(2, F) conjugate delay-and-sum weights w^H, w = d / (d^H d) of :meth:`steering`, complex64 (read-only,
-        cached)."""
+        cached; ``known_das`` when given)."""
+        if self.known_das is not None:
+            return self.known_das
         return _das_conjugate(float(self.azimuth), float(self.fs), int(self.n_fft), float(self.radius),
                               float(self.c))
 
@@ -127,16 +144,36 @@ def _steering(azimuth: float, fs: float, n_fft: int, radius: float, c: float) ->
     return d
 
 
+def das_conjugates(azimuths: np.ndarray, fs: float, n_fft: int = 512, radius: float = head.HEAD_RADIUS,
+                   c: float = 343.0) -> np.ndarray:
+    """Conjugate delay-and-sum weights w^H, w = d / (d^H d), towards many azimuths at once.
+
+    With the head model's steering vector d = H exp(-j omega tau) per ear (Brown & Duda's head shadow H, the
+    Woodworth delay tau), w^H = conj(H) exp(j omega tau) / sum over ears of |H|^2, since |d| = |H|.
+
+    Parameters
+    ----------
+    azimuths : (...) radians relative to the heading, counter-clockwise.
+    fs, n_fft : sampling rate (Hz) and STFT frame; the weights are on its F = n_fft // 2 + 1 bins.
+    radius, c : head radius (m) and speed of sound (m/s).
+
+    Returns
+    -------
+    (..., 2, F) complex64 weights, ear 0 left.
+    """
+    azimuths = np.asarray(azimuths, dtype=float)
+    omega, low, high = _shadow_basis(float(fs), int(n_fft), float(radius), float(c))
+    beta = ear_betas(azimuths.reshape(-1)).reshape(*azimuths.shape, 2)  # (..., 2)
+    shadow = low + head.shadow_alpha(beta)[..., None] * high  # (..., 2, F)
+    phase = omega * head.woodworth_delay(beta, radius, c)[..., None]  # (..., 2, F)
+    norm = 1.0 / (shadow.real ** 2 + shadow.imag ** 2).sum(axis=-2, keepdims=True)  # (..., 1, F)
+    return (np.conj(shadow) * (np.cos(phase) + 1j * np.sin(phase)) * norm).astype(np.complex64)
+
+
 @lru_cache(maxsize=4096)
 def _das_conjugate(azimuth: float, fs: float, n_fft: int, radius: float, c: float) -> np.ndarray:
-    """:meth:`SeparationContext.das_conjugate`: with d = H exp(-j omega tau) per ear, w^H = conj(H) exp(j omega tau)
-    / sum |H|^2 (|d| = |H|), computed directly rather than from the cached steering vector."""
-    omega, low, high = _shadow_basis(fs, n_fft, radius, c)
-    beta = ear_betas(azimuth)  # (2,)
-    shadow = low + head.shadow_alpha(beta)[:, None] * high  # (2, F)
-    phase = omega * head.woodworth_delay(beta, radius, c)[:, None]  # (2, F)
-    norm = 1.0 / (shadow.real ** 2 + shadow.imag ** 2).sum(axis=0)  # (F,)
-    w = np.conj(shadow) * (np.cos(phase) + 1j * np.sin(phase)) * norm
-    w = w.astype(np.complex64)
+    """:meth:`SeparationContext.das_conjugate`: :func:`das_conjugates` of one azimuth, read-only."""
+    w = das_conjugates(np.array([azimuth]), fs, n_fft, radius, c)[0]
     w.flags.writeable = False
     return w
+

@@ -1,0 +1,75 @@
+"""The per-scene pose tables against direct per-pose computations.
+
+References: the bearing of a point is atan2 of its offset minus the heading, wrapped to [-pi, pi) (plane
+geometry, common practice); delay-and-sum weights w = d / (d^H d) of the steering vector d (Van Trees,
+*Optimum Array Processing*, 2002) pass the look direction undistorted, w^H d = 1.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from hearnav.env.poses import ScenePoses, spot_directions
+from hearnav.separation import SeparationContext, steering_vector
+from hearnav.separation.beamform import das_weights
+from hearnav.separation.context import das_conjugates
+from hearnav.separation.stft import stft_freqs
+
+FS = 16000
+
+
+@pytest.fixture
+def world(make_env):
+    env = make_env()
+    env.reset(seed=0)
+    return env
+
+
+def test_spot_directions_equal_the_plane_geometry_of_each_pose(world):
+    grid = world.world.grid
+    spots = np.array([s.position[:2] for s in world.world.scene.spots])
+    distance, bearing = spot_directions(grid, spots)
+    assert distance.shape == (grid.n_cells, len(spots)) and bearing.shape == (grid.n_cells, grid.n_headings, len(spots))
+    for cell in range(0, grid.n_cells, 7):
+        x, y = grid.centers[cell]
+        for heading in range(grid.n_headings):
+            for s, (sx, sy) in enumerate(spots):
+                b = math.atan2(sy - y, sx - x) - 2 * math.pi * heading / grid.n_headings
+                assert bearing[cell, heading, s] == pytest.approx((b + math.pi) % (2 * math.pi) - math.pi, abs=1e-12)
+                assert distance[cell, s] == pytest.approx(math.hypot(sx - x, sy - y), abs=1e-12)
+    assert (bearing >= -math.pi).all() and (bearing < math.pi).all()
+
+
+def test_scene_das_table_is_the_delay_and_sum_weights_of_each_bearing(world):
+    grid = world.world.grid
+    spots = np.array([s.position[:2] for s in world.world.scene.spots])
+    poses = ScenePoses.build(grid, spots, FS, 512, 0.0875, 343.0)
+    assert poses.das.shape == (grid.n_cells, grid.n_headings, len(spots), 2, 257)
+    assert not (poses.das.flags.writeable or poses.bearing.flags.writeable or poses.distance.flags.writeable)
+    for cell, heading, spot in [(0, 0, 0), (3, 1, 2), (grid.n_cells - 1, grid.n_headings - 1, len(spots) - 1)]:
+        az = poses.bearing[cell, heading, spot]
+        d = steering_vector(az, stft_freqs(512, FS), radius=0.0875, c=343.0)  # (F, 2)
+        wh = poses.das[cell, heading, spot]
+        np.testing.assert_allclose(wh, np.conj(das_weights(d)).T, rtol=1e-6, atol=1e-7)
+        np.testing.assert_allclose(np.sum(wh * d.T, axis=0), 1.0, atol=1e-6)  # w^H d = 1
+
+
+def test_vectorised_weights_equal_the_contexts_own(world):
+    az = np.random.default_rng(0).uniform(-np.pi, np.pi, (3, 4))
+    table = das_conjugates(az, FS)
+    assert table.shape == (3, 4, 2, 257) and table.dtype == np.complex64
+    for idx in np.ndindex(az.shape):
+        np.testing.assert_array_equal(table[idx], SeparationContext(FS, float(az[idx])).das_conjugate())
+
+
+def test_the_env_hands_the_separator_the_weights_of_its_bearing(world):
+    # The tables are a cache: the weights the env passes must be those the context computes for the bearing.
+    for cell, heading in [(0, 0), (5, 2), (world.world.grid.n_cells - 1, 3)]:
+        ctx = world.context(cell, heading)
+        assert ctx.known_das is not None
+        own = SeparationContext(FS, ctx.azimuth, radius=ctx.radius, c=ctx.c).das_conjugate()
+        np.testing.assert_array_equal(ctx.das_conjugate(), own)
+        assert ctx.azimuth == world.target_bearing(cell, heading)[1]
