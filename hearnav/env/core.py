@@ -25,7 +25,7 @@ from hearnav.env.worlds import World, get_world, resolve_scenes
 from hearnav.errors import ConfigError, HearnavError, SeparatorError
 from hearnav.listening import FADE_S, ListeningSession, Source, Window
 from hearnav.separation import SeparationContext, get_separator
-from hearnav.separation.metrics import si_sdr_unchecked
+from hearnav.separation.metrics import si_sdrs_unchecked
 from hearnav.separation.stft import stft
 
 FORWARD, TURN_LEFT, TURN_RIGHT, STAY = 0, 1, 2, 3
@@ -58,13 +58,11 @@ def _scores(separator: str, reference: np.ndarray, *estimates: np.ndarray) -> li
     SeparatorError
         The first estimate (the separator's) is not finite.
     """
-    ref = reference.astype(np.float64)
-    energy = float(np.dot(ref, ref))
-    if energy <= SILENT_ENERGY:
+    scores = si_sdrs_unchecked(reference, *estimates, silent=SILENT_ENERGY)
+    if scores is None:
         scores = [None] * len(estimates)
         finite = bool(np.isfinite(estimates[0]).all())
     else:
-        scores = [si_sdr_unchecked(e, ref, energy) for e in estimates]
         finite = math.isfinite(scores[0])  # a NaN or infinite sample makes the inner products, so the score, NaN
     if not finite:
         raise SeparatorError(f"separator {separator!r} must return a finite ({reference.shape[-1]},) estimate, "

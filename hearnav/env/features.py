@@ -9,6 +9,9 @@ cross-spectra.
 
 from __future__ import annotations
 
+import math
+
+import numba
 import numpy as np
 
 from hearnav.errors import ConfigError
@@ -69,7 +72,8 @@ class FeatureExtractor:
 
     The feature frames are every other frame of the separator's STFT (sqrt-Hann ``n_fft``, ``hop``): a Welch
     estimate at twice the hop, half the work for practically the same averaging. :meth:`binaural` picks them
-    from the shared STFT; :meth:`mono_signal` computes the same frames of a mono signal directly.
+    from the shared STFT; :meth:`mono_signal` computes the same frames of a mono signal directly. One compiled
+    pass (:func:`_band_features`) reads each frame once and accumulates in double precision.
     """
 
     def __init__(self, fs: float, window: int, n_bands: int, n_segments: int, n_fft: int = 512, hop: int = 128):
@@ -80,22 +84,16 @@ class FeatureExtractor:
         starts = np.arange(n_frames(window, n_fft, hop))[self.picked] * hop - (n_fft - hop)
         self.n_picked = len(starts)
         self.bands = band_matrix(n_fft, fs, n_bands)  # (F, B)
-        self.bands2 = np.repeat(self.bands, 2, axis=0)  # (2F, B): a bin's real and imaginary parts alike
-        parts = np.tile(np.eye(2, dtype=np.float32), (len(self.bands), 1))  # (2F, 2): picks re, im
-        self.bands_cross = np.concatenate([self.bands2 * parts[:, :1], self.bands2 * parts[:, 1:]], axis=1)  # (2F, 2B)
         self.frames = segment_matrix(starts + n_fft / 2, window, n_segments)  # (K, S)
         self.shape = (n_segments, n_bands)
-        self._low = np.array([LEVEL_DB[0], LEVEL_DB[0], ILD_DB[0]], np.float32)[:, None, None]  # clip of rows 0-2
-        self._high = np.array([LEVEL_DB[1], LEVEL_DB[1], ILD_DB[1]], np.float32)[:, None, None]
-        # Each segment's frames go to a slot of equal width (empty slots stay zero), so one reshaped sum
-        # averages them all: numpy sums a reshaped axis far faster than it multiplies by a (K, S) matrix.
         seg = _segment_of(starts + n_fft / 2, window, n_segments)
-        counts = np.bincount(seg, minlength=n_segments)
-        self._width = int(counts.max())
-        first_of = np.concatenate([[0], np.cumsum(counts)[:-1]])
-        self._slots = seg * self._width + np.arange(len(seg)) - first_of[seg]  # (K,) slot of each picked frame
-        self._inverse_counts = (1.0 / counts).astype(np.float32)[:, None]  # (S, 1)
-        self._spare = np.setdiff1d(np.arange(n_segments * self._width), self._slots)  # slots no frame fills
+        self._segment = seg  # (K,) segment of each picked frame
+        self._inverse_counts = 1.0 / np.bincount(seg, minlength=n_segments)  # (S,)
+        bins = [np.flatnonzero(self.bands[:, b]) for b in range(n_bands)]  # the bands as lists of bins
+        self._band_bins = np.concatenate(bins)
+        self._band_starts = np.concatenate([[0], np.cumsum([len(b) for b in bins])])  # (B + 1,)
+        self._picked_frames = np.ascontiguousarray(np.arange(n_frames(window, n_fft, hop))[self.picked])  # (K,)
+        self._no_ears = np.zeros((0, 1, len(self.bands)), np.complex64)
 
     def binaural(self, spec: np.ndarray) -> np.ndarray:
         """(5, S, B) float32: left and right level (dB), ILD (dB), cos and sin of the IPD.
@@ -118,77 +116,96 @@ class FeatureExtractor:
         -------
         (5, S, B) float32 binaural features and (len(monos), S, B) float32 levels in dB.
         """
-        n = 2 + len(monos)
-        v = self._empty_slots(n, ears.shape[-2])  # (n, S * width, 2F): re, im, re, im, ...
-        cv = v.view(np.complex64)
-        cv[0:2, self._slots] = np.swapaxes(ears[..., self.picked], -1, -2)
-        for i, mono in enumerate(monos):
-            cv[2 + i, self._slots] = mono[..., self.picked].T
-        x = np.empty((n + 1, *v.shape[1:]), np.float32)
-        np.multiply(v, v, out=x[:n])  # a bin's pair summed later: |L|^2, |R|^2, |E|^2
-        np.multiply(cv[0], np.conj(cv[1]), out=x[n].view(np.complex64))  # L R*, interleaved
-        y = self._band_means(x)  # (n + 1, S, 2B): re-part and im-part band sums, frame-averaged
-        n_seg, n_bands = self.shape
-        levels = self._band_levels(y[:n])  # (n, S, B), unclipped
-        out = np.empty((5, n_seg, n_bands), np.float32)
-        np.subtract(levels[0], levels[1], out=out[2])  # the ILD is of the unclipped levels
-        out[0:2] = levels[0:2]
-        _clip(out[0:3], self._low, self._high)
-        cross = y[n].reshape(n_seg, 2, n_bands).transpose(1, 0, 2)  # (2, S, B): Re, Im of the band-summed L R*
-        mag = np.hypot(cross[0], cross[1])
-        silent = mag == 0  # a zero cross-spectrum has IPD 0: cos 1, sin 0
-        mag += silent
-        np.divide(cross, mag, out=out[3:5])  # cos and sin of the IPD
-        out[3] += silent
-        return out, _clip(levels[2:], *LEVEL_DB)
+        return self._features(_frame_major(np.swapaxes(ears, -1, -2)), [m.T for m in monos], self._picked_frames)
 
     def mono(self, spec: np.ndarray) -> np.ndarray:
         """(1, S, B) float32 level in dB of a mono signal from its (F, T) complex STFT at ``hop``."""
-        return self._mono_levels(spec, self.picked)
+        return self._features(self._no_ears, [spec.T], self._picked_frames)[1]
 
     def mono_signal(self, y: np.ndarray) -> np.ndarray:
         """(1, S, B) float32 level in dB of a mono (n,) signal, on the feature frames (transformed directly at
         the feature hop)."""
         spec = stft(np.asarray(y, np.float32), self.n_fft, self.hop * self.stride)
-        return self._mono_levels(spec, slice(0, self.n_picked))
+        return self._features(self._no_ears, [spec.T], np.arange(self.n_picked))[1]
 
-    def _mono_levels(self, spec: np.ndarray, frames: slice) -> np.ndarray:
-        """(1, S, B) float32 level in dB from the feature frames ``frames`` of an (F, T) complex STFT."""
-        v = self._empty_slots(1, spec.shape[-2])
-        v.view(np.complex64)[0, self._slots] = spec[:, frames].T
-        return _clip(self._band_levels(self._band_means(v * v)).astype(np.float32), *LEVEL_DB)
-
-    def _band_levels(self, y: np.ndarray) -> np.ndarray:
-        """(C, S, B) unclipped levels in dB of (C, S, 2B) :meth:`_band_means` of powers (re and im parts summed)."""
-        n_bands = self.shape[1]
-        return _level_db(y[..., :n_bands] + y[..., n_bands:])
-
-    def _empty_slots(self, channels: int, n_bins: int) -> np.ndarray:
-        """(channels, S * width, 2 n_bins) float32 slots for feature frames, real and imaginary parts
-        interleaved: frame k of the picked frames goes to slot ``_slots[k]``; the slots left over are zero, the
-        others are left for the caller to fill."""
-        out = np.empty((channels, self._slots[-1] + 1, 2 * n_bins), np.float32)
-        out[:, self._spare] = 0.0
-        return out
-
-    def _band_means(self, x: np.ndarray) -> np.ndarray:
-        """(C, S, 2B) frame-averaged band sums of (C, S * width, 2F) slotted powers, real-part bins in the first
-        B columns and imaginary-part bins in the last B."""
-        c, _, n = x.shape
-        sums = x.reshape(c, -1, self._width, n).sum(axis=2)  # (C, S, 2F)
-        return (sums.reshape(-1, n) @ self.bands_cross).reshape(c, -1, self.bands_cross.shape[1]) * \
-            self._inverse_counts
+    def _features(self, ears: np.ndarray, monos: list[np.ndarray], frames: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """:func:`_band_features` of (2 or 0, T, F) ear frames and (T, F) mono frames on feature frames ``frames``."""
+        if len(monos) == 1:
+            stacked = _frame_major(monos[0])[None]
+        else:
+            stacked = _frame_major(np.stack(monos)) if monos else np.zeros((0, 1, ears.shape[-1]), np.complex64)
+        return _band_features(ears, stacked, frames, self._segment, self._inverse_counts,
+                              self._band_starts, self._band_bins, *LEVEL_DB, *ILD_DB)
 
 
-def _clip(x: np.ndarray, low: float | np.ndarray, high: float | np.ndarray) -> np.ndarray:
-    """Clip ``x`` to [low, high] in place (two ufunc calls: numpy's clip is slower on small arrays)."""
-    np.maximum(x, low, out=x)
-    return np.minimum(x, high, out=x)
+def _frame_major(z: np.ndarray) -> np.ndarray:
+    """``z`` as a C-contiguous complex64 array (itself when it is one already: our STFT's frames are)."""
+    return z if z.dtype == np.complex64 and z.flags.c_contiguous else np.ascontiguousarray(z, np.complex64)
 
 
-def _level_db(power: np.ndarray, out: np.ndarray | None = None) -> np.ndarray:
-    """Band powers in dB, with the floor that maps silence to a finite value (``power`` is overwritten)."""
-    power += _POWER_FLOOR
-    out = np.log10(power, out=out)
-    out *= 10
-    return out
+@numba.njit(cache=True, inline="always")
+def _level_db(power):  # pragma: no cover (compiled)
+    """A band power in dB, with the floor that maps silence to a finite value."""
+    return 10.0 * math.log10(power + _POWER_FLOOR)
+
+
+@numba.njit(cache=True, nogil=True)
+def _band_features(ears, monos, frames, segment, inverse_counts, band_starts, band_bins, low, high, ild_low,
+                   ild_high):  # pragma: no cover (compiled; tested through FeatureExtractor)
+    """Welch band features in one pass over the feature frames.
+
+    Parameters
+    ----------
+    ears : (2, T, F) complex64 frame-major ear spectra, or (0, 1, F) for none.
+    monos : (M, T, F) complex64 frame-major mono spectra.
+    frames : (K,) indices of the feature frames; segment : (K,) the segment of each.
+    inverse_counts : (S,) 1 / frames per segment.
+    band_starts, band_bins : band b holds bins ``band_bins[band_starts[b]:band_starts[b + 1]]``.
+    low, high, ild_low, ild_high : clip bounds of the levels and of the ILD (dB).
+
+    Returns
+    -------
+    (5, S, B) float32 left and right level, ILD, cos and sin of the IPD (zeros without ears), and (M, S, B)
+    float32 mono levels. Levels are :func:`_level_db` of frame-mean band powers; the IPD is the angle of the
+    band-summed, frame-averaged L R* (0 where it is zero).
+    """
+    n_seg, n_bands = inverse_counts.shape[0], band_starts.shape[0] - 1
+    n_ears, n_mono, n_bins = ears.shape[0], monos.shape[0], monos.shape[2] if monos.shape[0] else ears.shape[2]
+    acc = np.zeros((n_seg, 4 + n_mono, n_bins))  # per bin: |L|^2, |R|^2, Re L R*, Im L R*, |E_m|^2
+    for k in range(frames.shape[0]):
+        t, a = frames[k], acc[segment[k]]
+        if n_ears:
+            left, right = ears[0, t], ears[1, t]
+            a0, a1, a2, a3 = a[0], a[1], a[2], a[3]
+            for f in range(n_bins):
+                lr, li = np.float64(left[f].real), np.float64(left[f].imag)
+                rr, ri = np.float64(right[f].real), np.float64(right[f].imag)
+                a0[f] += lr * lr + li * li
+                a1[f] += rr * rr + ri * ri
+                a2[f] += lr * rr + li * ri
+                a3[f] += li * rr - lr * ri
+        for m in range(n_mono):
+            frame, am = monos[m, t], a[4 + m]
+            for f in range(n_bins):
+                er, ei = np.float64(frame[f].real), np.float64(frame[f].imag)
+                am[f] += er * er + ei * ei
+    out = np.zeros((5, n_seg, n_bands), np.float32)
+    mono = np.empty((n_mono, n_seg, n_bands), np.float32)
+    sums = np.empty(4 + n_mono)
+    for s in range(n_seg):
+        for b in range(n_bands):
+            for c in range(sums.shape[0]):
+                sums[c] = 0.0
+                for j in range(band_starts[b], band_starts[b + 1]):
+                    sums[c] += acc[s, c, band_bins[j]]
+            for m in range(n_mono):
+                mono[m, s, b] = min(max(_level_db(sums[4 + m] * inverse_counts[s]), low), high)
+            if n_ears:
+                left, right = _level_db(sums[0] * inverse_counts[s]), _level_db(sums[1] * inverse_counts[s])
+                out[0, s, b] = min(max(left, low), high)
+                out[1, s, b] = min(max(right, low), high)
+                out[2, s, b] = min(max(left - right, ild_low), ild_high)  # the ILD is of the unclipped levels
+                ipd = math.atan2(sums[3], sums[2] + 0.0)  # + 0.0: a real part of -0.0 gives 0, not pi
+                out[3, s, b] = math.cos(ipd)
+                out[4, s, b] = math.sin(ipd)
+    return out, mono

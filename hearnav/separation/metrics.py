@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import math
 
+import numba
 import numpy as np
 
 from hearnav.errors import ConfigError
@@ -84,18 +85,48 @@ def _core(est: np.ndarray, ref: np.ndarray, energy: np.ndarray) -> np.ndarray:
 _CLOSED_FORM_MAX = 1e6
 
 
-def si_sdr_unchecked(estimate: np.ndarray, reference: np.ndarray, energy: float | None = None) -> float:
+def si_sdr_unchecked(estimate: np.ndarray, reference: np.ndarray) -> float:
     """:func:`si_sdr` without input checks, for callers that guarantee finite (n,) inputs and a sounding
-    reference (the environment's hot path): the same formula and clipping on Python floats.
+    reference: the same formula and clipping on Python floats (see :func:`si_sdrs_unchecked`)."""
+    return _from_products(*_products(_vector(estimate), _vector(reference)), estimate, reference)
 
-    ``energy`` is ||reference||^2 when the caller already has it. The error energy ||alpha ref - est||^2 =
-    ||est||^2 - <est, ref>^2 / ||ref||^2 comes from the inner products, except above 60 dB, where it is computed
-    from the error signal.
+
+def si_sdrs_unchecked(reference: np.ndarray, *estimates: np.ndarray, silent: float = 0.0) -> list[float] | None:
+    """SI-SDR in dB of each (n,) estimate against one (n,) reference, without input checks (the environment's
+    hot path), or None when the reference is silent (||reference||^2 <= ``silent``).
+
+    The inner products of each estimate come from one compiled pass in double precision (:func:`_products`).
+    The error energy ||alpha ref - est||^2 = ||est||^2 - <est, ref>^2 / ||ref||^2 comes from them, except above
+    60 dB, where it is computed from the error signal. A NaN or infinite sample makes its estimate's score NaN.
     """
-    est, ref = np.asarray(estimate, np.float64), np.asarray(reference, np.float64)
-    if energy is None:
-        energy = float(np.dot(ref, ref))
-    return _from_products(float(np.dot(est, ref)), float(np.dot(est, est)), energy, est, ref)
+    ref = _vector(reference)
+    scores = []
+    for estimate in estimates:
+        cross, power, energy = _products(_vector(estimate), ref)
+        if not energy > silent:
+            return None
+        scores.append(_from_products(cross, power, energy, estimate, reference))
+    return scores
+
+
+def _vector(x: np.ndarray) -> np.ndarray:
+    """``x`` as a contiguous float32 or float64 vector for :func:`_products` (itself when it is one)."""
+    if x.dtype in (np.float32, np.float64) and x.flags.c_contiguous:
+        return x
+    return np.ascontiguousarray(x, np.float64)
+
+
+@numba.njit(cache=True, nogil=True, fastmath={"reassoc"})
+def _products(estimate, reference):  # pragma: no cover (compiled; tested through si_sdr_unchecked)
+    """(<est, ref>, ||est||^2, ||ref||^2) in double precision. The compiler may reorder the sums to vectorise
+    them; the order is fixed in the compiled code, so equal inputs give equal results."""
+    cross = power = energy = 0.0
+    for i in range(estimate.shape[0]):
+        e, r = np.float64(estimate[i]), np.float64(reference[i])
+        cross += e * r
+        power += e * e
+        energy += r * r
+    return cross, power, energy
 
 
 def _from_products(cross: float, power: float, energy: float, est: np.ndarray, ref: np.ndarray) -> float:
@@ -103,7 +134,7 @@ def _from_products(cross: float, power: float, energy: float, est: np.ndarray, r
     num = cross * cross / energy  # ||alpha ref||^2
     den = power - num
     if den <= num / _CLOSED_FORM_MAX:
-        err = (cross / energy) * ref - est
+        err = (cross / energy) * np.asarray(ref, np.float64) - est
         den = float(np.dot(err, err))
     if den <= 0.0:
         return -CLIP_DB if num == 0.0 else CLIP_DB

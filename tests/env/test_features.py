@@ -99,3 +99,22 @@ def test_too_many_segments_is_a_clear_error():
     with pytest.raises(ConfigError, match=r"n_segments too large for 1600-sample windows \(expected at most 7 "
                                           r"segments of one feature frame or more, got 32\)"):
         FeatureExtractor(FS, 1600, 16, 32)
+
+
+def test_any_layout_and_precision_gives_the_same_features():
+    # The compiled pass reads C-contiguous complex64 frames; other inputs are converted first (common practice:
+    # a conversion must not change the result beyond single-precision rounding).
+    fe = extractor()
+    rng = np.random.default_rng(4)
+    x = 0.01 * rng.standard_normal((2, N)).astype(np.float32)
+    y = 0.01 * rng.standard_normal(N).astype(np.float32)
+    spec, mono = stft(x), stft(y)
+    binaural, levels = fe.observe(spec, mono)
+    double = fe.observe(spec.astype(np.complex128), np.ascontiguousarray(mono, np.complex128))
+    np.testing.assert_allclose(double[0], binaural, atol=1e-5)
+    np.testing.assert_allclose(double[1], levels, atol=1e-5)
+    np.testing.assert_array_equal(fe.mono(mono), levels)
+    np.testing.assert_array_equal(fe.binaural(spec), binaural)
+    two = fe.observe(spec, mono, spec[0])[1]
+    np.testing.assert_array_equal(two[0], levels[0])
+    np.testing.assert_array_equal(two[1], binaural[0])  # the left ear's levels, as a mono spectrum

@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from hearnav.separation.beamform import apply_weights, das_weights, mvdr_weights, spatial_covariance
+from hearnav.separation.beamform import apply_weights, combine, das_weights, mvdr_weights, spatial_covariance
 
 
 def _random_case(seed, n_bins=64):
@@ -73,3 +73,21 @@ def test_spatial_covariance_and_apply_weights():
     y = apply_weights(w, spec)
     for f in range(5):
         np.testing.assert_allclose(y[f], np.conj(w[f]) @ spec[:, f], atol=1e-12)
+
+
+@pytest.mark.parametrize("layout", ["frame-major complex64", "bin-major complex64", "complex128"])
+def test_combine_is_the_weighted_sum_over_ears_in_every_layout(layout):
+    # Definition Y(f, t) = sum_e wh[e, f] X_e(f, t); frame-major complex64 (our STFT's layout) takes the compiled
+    # pass, the others numpy's, and both must equal explicit loops.
+    rng = np.random.default_rng(3)
+    spec = rng.standard_normal((2, 9, 6)) + 1j * rng.standard_normal((2, 9, 6))
+    wh = rng.standard_normal((2, 9)) + 1j * rng.standard_normal((2, 9))
+    if layout != "complex128":
+        spec, wh = spec.astype(np.complex64), wh.astype(np.complex64)
+    if layout == "frame-major complex64":
+        spec = np.swapaxes(np.ascontiguousarray(np.swapaxes(spec, -1, -2)), -1, -2)
+    y = combine(wh, spec)
+    assert y.shape == (9, 6) and y.dtype == spec.dtype
+    for f in range(9):
+        for t in range(6):
+            assert y[f, t] == pytest.approx(wh[0, f] * spec[0, f, t] + wh[1, f] * spec[1, f, t], rel=1e-5)

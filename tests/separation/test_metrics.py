@@ -10,7 +10,7 @@ from torchmetrics.functional.audio import (
 
 from hearnav.errors import ConfigError
 from hearnav.separation import si_sdr, si_sdr_batch
-from hearnav.separation.metrics import si_sdr_unchecked
+from hearnav.separation.metrics import si_sdr_unchecked, si_sdrs_unchecked
 
 
 def _pair(seed, n=4000):
@@ -130,3 +130,13 @@ def test_unchecked_hot_path_clips_like_si_sdr(scale, expected):
     # Clipping of this module's docstring: a silent estimate gives -100 dB, a scaled copy +100 dB.
     ref = np.random.default_rng(0).standard_normal(512)
     assert si_sdr_unchecked(scale * ref, ref) == si_sdr(scale * ref, ref) == expected
+
+
+def test_unchecked_scores_of_several_estimates_and_a_silent_reference():
+    # Reference library fast_bss_eval (PyPI), reference first: each estimate scored against the one reference.
+    est, ref = _pair(11)
+    other = est[::-1].copy()
+    want = [float(fast_bss_eval.si_sdr(ref[None], e[None], zero_mean=False)[0]) for e in (est, other)]
+    assert si_sdrs_unchecked(ref, est, other) == pytest.approx(want, abs=1e-6)
+    assert si_sdrs_unchecked(np.zeros_like(ref), est, silent=1e-12) is None
+    assert np.isnan(si_sdrs_unchecked(ref, np.full_like(est, np.nan))[0])  # a NaN sample gives a NaN score
