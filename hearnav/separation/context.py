@@ -176,4 +176,3 @@ def _das_conjugate(azimuth: float, fs: float, n_fft: int, radius: float, c: floa
     w = das_conjugates(np.array([azimuth]), fs, n_fft, radius, c)[0]
     w.flags.writeable = False
     return w
-

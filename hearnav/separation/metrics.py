@@ -88,7 +88,7 @@ _CLOSED_FORM_MAX = 1e6
 def si_sdr_unchecked(estimate: np.ndarray, reference: np.ndarray) -> float:
     """:func:`si_sdr` without input checks, for callers that guarantee finite (n,) inputs and a sounding
     reference: the same formula and clipping on Python floats (see :func:`si_sdrs_unchecked`)."""
-    return _from_products(*_products(_vector(estimate), _vector(reference)), estimate, reference)
+    return si_sdrs_unchecked(reference, estimate, silent=-math.inf)[0]
 
 
 def si_sdrs_unchecked(reference: np.ndarray, *estimates: np.ndarray, silent: float = 0.0) -> list[float] | None:
