@@ -74,8 +74,7 @@ def _scores(separator: str, reference: np.ndarray, *estimates: np.ndarray) -> li
 def _scene_poses(scene: str, settings: AcousticSettings, window: int) -> ScenePoses:
     """Every spot's distance, bearing and delay-and-sum weights from every pose of a scene's world."""
     world = get_world(scene, settings, window)
-    spots = np.array([s.position[:2] for s in world.scene.spots])
-    return ScenePoses.build(world.grid, spots, settings.fs, SeparationContext.n_fft, settings.head_radius,
+    return ScenePoses.build(world.grid, world.scene.spots_xy, settings.fs, SeparationContext.n_fft, settings.head_radius,
                             settings.speed_of_sound)
 
 
@@ -83,8 +82,8 @@ def _scene_poses(scene: str, settings: AcousticSettings, window: int) -> ScenePo
 def _scene_views(scene: str, settings: AcousticSettings, window: int, size: int, fov_rad: float) -> PoseViews:
     """The egocentric maps of every pose of a scene's world (see :func:`hearnav.env.worlds.get_world`)."""
     world = get_world(scene, settings, window)
-    spots = np.array([s.position[:2] for s in world.scene.spots])
-    return PoseViews(world.grid, spots, world.responses.line_of_sight, size, fov_rad)
+    bearing = _scene_poses(scene, settings, window).bearing
+    return PoseViews(world.grid, world.scene.spots_xy, bearing, world.responses.line_of_sight, size, fov_rad)
 
 
 class HearNavEnv(gym.Env):

@@ -6,7 +6,6 @@ import functools
 
 import numpy as np
 
-from hearnav.env.poses import spot_directions
 from hearnav.scene.grid import Grid
 
 
@@ -54,17 +53,19 @@ class PoseViews:
     ----------
     grid : the scene's grid.
     spots_xy : (n_spots, 2) spot positions (m).
+    bearing : (n_cells, n_headings, n_spots) each spot's bearing from each pose, radians in [-pi, pi)
+        (:func:`hearnav.env.poses.spot_directions`).
     line_of_sight : (n_cells, n_spots) bool, a spot in line of sight of a cell centre.
     size : patch side in cells (odd).
     fov_rad : field of view, radians: a spot shows when in line of sight and within half of it of the heading.
     """
 
-    def __init__(self, grid: Grid, spots_xy: np.ndarray, line_of_sight: np.ndarray, size: int, fov_rad: float):
+    def __init__(self, grid: Grid, spots_xy: np.ndarray, bearing: np.ndarray, line_of_sight: np.ndarray, size: int,
+                 fov_rad: float):
         self.size = size
         self.occupancy = np.stack([np.stack([occupancy_patch(grid, c, h, size) for h in range(grid.n_headings)])
                                    for c in range(grid.n_cells)])  # (C, H, P, P)
         angles = 2.0 * np.pi * np.arange(grid.n_headings) / grid.n_headings  # (H,)
-        bearing = spot_directions(grid, spots_xy)[1]  # (C, H, S)
         seen = line_of_sight[:, None, :] & (np.abs(bearing) <= fov_rad / 2 + 1e-9)
         cells = (np.asarray(spots_xy, float)[None] - grid.centers[:, None]) / grid.spacing  # (C, S, 2)
         cos, sin = np.cos(angles)[None, :, None], np.sin(angles)[None, :, None]

@@ -26,7 +26,7 @@ def draw_plan(ax, scene: Scene, grid: Grid | None = None, label_spots: bool = Tr
         x0, y0, x1, y1 = scene.spec.grid.start_region.box
         ax.add_patch(Rectangle((x0, y0), x1 - x0, y1 - y0, fill=False, ec="tab:green", ls="--", lw=1.2,
                                label="start region"))
-    spots = np.array([s.position[:2] for s in scene.spots])
+    spots = scene.spots_xy
     if show_spots:
         ax.scatter(spots[:, 0], spots[:, 1], marker="*", s=140, c="tab:orange", ec="k", lw=0.5, zorder=5,
                    label="source spots")

@@ -68,6 +68,11 @@ class Scene:
         """SHA-256 of the scene's content."""
         return hashlib.sha256(self.text.encode("utf-8")).hexdigest()
 
+    @property
+    def spots_xy(self) -> np.ndarray:
+        """(n_spots, 2) horizontal positions of the spots, metres."""
+        return np.array([s.position[:2] for s in self.spots], float).reshape(-1, 2)
+
     def spot(self, name: str) -> SourceSpot:
         """The spot called ``name``."""
         for s in self.spots:
