@@ -8,7 +8,6 @@ import matplotlib
 
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
-import numpy as np  # noqa: E402
 from matplotlib.patches import Polygon, Rectangle  # noqa: E402
 
 from hearnav.scene.grid import Grid  # noqa: E402
