@@ -70,7 +70,7 @@ def resim_time(env, n_steps: int) -> float:
     import pyroomacoustics as pra
 
     from hearnav.acoustics import room as room_mod
-    from hearnav.acoustics.head import ear_axes
+    from hearnav.physics.head import ear_axes
 
     settings = env.config.acoustics
     scene, grid = env.world.scene, env.world.grid

@@ -20,7 +20,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.fft as sfft
 
-from hearnav.acoustics import head
+from hearnav.physics import head
 from hearnav.acoustics.bands import band_weights, interpolate_bands
 
 #: Taps of the windowed-sinc fractional-delay filter.

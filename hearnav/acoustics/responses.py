@@ -7,7 +7,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from hearnav.acoustics import decay, room
+from hearnav.acoustics import room
+from hearnav.physics import reverberation
 from hearnav.acoustics.probes import choose_probes
 from hearnav.acoustics.render import FD_TAPS, PathSet, early_fast
 from hearnav.acoustics.settings import RESPONSE_LEAD, AcousticSettings
@@ -96,10 +97,10 @@ def _decay_rt60(hist: np.ndarray, bin_s: float) -> np.ndarray:
     for band in pooled:
         rt = 0.0
         if band.sum() > 0:
-            edc = decay.schroeder_db(band)
+            edc = reverberation.schroeder_db(band)
             for evaluation in ("T30", "T20"):
                 try:
-                    rt = decay.fit_decay(edc, 1 / bin_s, evaluation)
+                    rt = reverberation.fit_decay(edc, 1 / bin_s, evaluation)
                     break
                 except ValueError:
                     continue

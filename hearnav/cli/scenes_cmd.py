@@ -48,9 +48,7 @@ def resolve_scene(name: str):
 
 
 def _eyring_mid(scene) -> float:
-    from hearnav.acoustics.decay import scene_rt60
-
-    return float(np.mean(scene_rt60(scene)[2:4]))  # 500 Hz and 1 kHz
+    return float(np.mean(scene.eyring_rt60()[2:4]))  # 500 Hz and 1 kHz
 
 
 def run_list(args) -> int:

@@ -7,7 +7,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from hearnav.scene.grid import Grid
-from hearnav.separation.context import das_conjugates
+from hearnav.physics.geometry import bearing as bearing_of, heading_angles
+from hearnav.physics.steering import das_conjugates
+from hearnav.separation.stft import stft_freqs
 
 
 def spot_directions(grid: Grid, spots_xy: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -24,15 +26,14 @@ def spot_directions(grid: Grid, spots_xy: np.ndarray) -> tuple[np.ndarray, np.nd
     bearing : (C, H, S) radians in [-pi, pi), counter-clockwise from the heading.
     """
     d = np.asarray(spots_xy, float)[None] - grid.centers[:, None]  # (C, S, 2)
-    angles = np.array([grid.heading_angle(h) for h in range(grid.n_headings)])  # (H,)
-    bearing = np.arctan2(d[..., 1], d[..., 0])[:, None, :] - angles[None, :, None]
-    return np.hypot(d[..., 0], d[..., 1]), (bearing + np.pi) % (2 * np.pi) - np.pi
+    bearing = bearing_of(d[:, None, :, 0], d[:, None, :, 1], heading_angles(grid.n_headings)[None, :, None])
+    return np.hypot(d[..., 0], d[..., 1]), bearing
 
 
 @dataclass(frozen=True)
 class ScenePoses:
     """Every spot's distance (C, S) and bearing (C, H, S) from every pose of a scene, and the conjugate
-    delay-and-sum weights (C, H, S, 2, F) towards it (:func:`hearnav.separation.context.das_conjugates`).
+    delay-and-sum weights (C, H, S, 2, F) towards it (:func:`hearnav.physics.steering.das_conjugates`).
     All read-only."""
 
     distance: np.ndarray
@@ -45,8 +46,9 @@ class ScenePoses:
         working memory)."""
         distance, bearing = spot_directions(grid, spots_xy)
         das = np.empty((*bearing.shape, 2, n_fft // 2 + 1), np.complex64)
+        freqs = stft_freqs(n_fft, fs)
         for cell in range(grid.n_cells):
-            das[cell] = das_conjugates(bearing[cell], fs, n_fft, radius, c)
+            das[cell] = das_conjugates(bearing[cell], freqs, radius, c)
         for table in (distance, bearing, das):
             table.flags.writeable = False
         return cls(distance, bearing, das)

@@ -2,20 +2,20 @@
 
 from __future__ import annotations
 
-import matplotlib
+import numpy as np
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.figure import Figure
 
-matplotlib.use("Agg")
-import matplotlib.pyplot as plt  # noqa: E402
-import numpy as np  # noqa: E402
-
-from hearnav.plots.plan import draw_plan  # noqa: E402
+from hearnav.plots.plan import draw_plan
 
 
 def draw_frame(env, size_px: int = 480) -> np.ndarray:
     """(H, W, 3) uint8 picture of the current state of an episode."""
     world, plan = env.world, env.plan
     grid = world.grid
-    fig, ax = plt.subplots(figsize=(size_px / 100, size_px / 100), dpi=100)
+    fig = Figure(figsize=(size_px / 100, size_px / 100), dpi=100)  # its own Agg canvas: the user's backend is left alone
+    canvas = FigureCanvasAgg(fig)
+    ax = fig.subplots()
     draw_plan(ax, world.scene, grid, label_spots=False, show_spots=False)
     for k, src in enumerate(plan.sources):
         xy = world.scene.spots[src.spot].position[:2]
@@ -29,7 +29,5 @@ def draw_frame(env, size_px: int = 480) -> np.ndarray:
     if ax.get_legend():
         ax.get_legend().remove()
     fig.tight_layout()
-    fig.canvas.draw()
-    frame = np.asarray(fig.canvas.buffer_rgba())[..., :3].copy()
-    plt.close(fig)
-    return frame
+    canvas.draw()
+    return np.asarray(canvas.buffer_rgba())[..., :3].copy()

@@ -10,10 +10,10 @@ from hearnav.acoustics import AcousticSettings, Responses, load_or_build
 from hearnav.errors import ConfigError
 from hearnav.listening import ListeningWorld
 from hearnav.scene.grid import Grid, build_grid
+from hearnav.scene.format import SPLITS
 from hearnav.scene.library import load_named, scene_names
 from hearnav.scene.model import Scene
 
-SPLITS = ("train", "val", "test")
 
 
 @dataclass(frozen=True)

@@ -4,14 +4,11 @@ from __future__ import annotations
 
 from pathlib import Path
 
-import matplotlib
+from matplotlib.figure import Figure
+from matplotlib.patches import Polygon, Rectangle
 
-matplotlib.use("Agg")
-import matplotlib.pyplot as plt  # noqa: E402
-from matplotlib.patches import Polygon, Rectangle  # noqa: E402
-
-from hearnav.scene.grid import Grid  # noqa: E402
-from hearnav.scene.model import Scene  # noqa: E402
+from hearnav.scene.grid import Grid
+from hearnav.scene.model import Scene
 
 
 def draw_plan(ax, scene: Scene, grid: Grid | None = None, label_spots: bool = True, show_spots: bool = True) -> None:
@@ -45,7 +42,8 @@ def save_plan(scene: Scene, grid: Grid | None, path: str | Path) -> Path:
     path = Path(path)
     lo, hi = scene.outline.min(axis=0), scene.outline.max(axis=0)
     w, h = hi - lo
-    fig, ax = plt.subplots(figsize=(min(12, 2 + w * 0.8), min(12, 1.5 + h * 0.8)))
+    fig = Figure(figsize=(min(12, 2 + w * 0.8), min(12, 1.5 + h * 0.8)))  # no pyplot: the user's backend is left alone
+    ax = fig.subplots()
     draw_plan(ax, scene, grid)
     ax.set_title(f"{scene.name} ({scene.split}): {scene.floor_area:.0f} m$^2$, "
                  f"{grid.n_cells if grid else 0} cells, {len(scene.spots)} spots", fontsize=9)
@@ -53,5 +51,4 @@ def save_plan(scene: Scene, grid: Grid | None, path: str | Path) -> Path:
     fig.tight_layout()
     path.parent.mkdir(parents=True, exist_ok=True)
     fig.savefig(path, dpi=130)
-    plt.close(fig)
     return path

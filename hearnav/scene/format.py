@@ -7,7 +7,7 @@ need more than one field at a time live in :mod:`hearnav.scene.checks`.
 
 from __future__ import annotations
 
-from typing import Annotated, Any, Literal, Union
+from typing import Annotated, Any, Literal, Union, get_args
 
 from pydantic import BaseModel, ConfigDict, Discriminator, Field, Tag, field_validator, model_validator
 
@@ -15,6 +15,8 @@ from hearnav.scene.materials import N_BANDS
 
 Point = Annotated[list[float], Field(min_length=2, max_length=2, description="[x, y] in metres")]
 Split = Literal["train", "val", "test"]
+#: The scene splits, in order: the one definition every other module uses.
+SPLITS: tuple[str, ...] = get_args(Split)
 #: Sound categories a spot may restrict itself to; the sounds package registers the same names.
 CATEGORY_NAMES = ("talker", "music", "alarm", "hum", "noise")
 Category = Literal["talker", "music", "alarm", "hum", "noise"]

@@ -19,6 +19,7 @@ import numpy as np
 import shapely
 
 from hearnav.errors import ConfigError, SceneError
+from hearnav.scene.format import SPLITS
 from hearnav.scene.grid import build_grid
 from hearnav.scene.loader import from_dict
 from hearnav.scene.model import Scene
@@ -39,7 +40,6 @@ MAX_CELLS = 350
 #: Accepted Eyring RT60 (s) at 500 Hz and 1 kHz.
 RT60_RANGE = (0.25, 1.0)
 SPOT_MARGIN = 0.4  # horizontal clearance (m) of spots from every wall and obstacle
-_SPLITS = ("train", "val", "test")
 
 WALL_MATERIALS = ("plasterboard", "plasterboard", "wooden_lining", "brick_wall_rough", "rough_lime_wash")
 FLOOR_MATERIALS = ("carpet_hairy", "carpet_soft_10mm", "carpet_tufted_9.5mm", "carpet_cotton", "wood_16mm",
@@ -281,8 +281,6 @@ def _draw(seed: int, attempt: int, split: str) -> tuple[dict, list[tuple[float, 
 
 def _acceptable(scene: Scene, rooms: list[tuple[float, ...]]) -> bool:
     """Quality checks beyond validity: spots, cell budget, start cells, every room reachable, RT60."""
-    from hearnav.acoustics.decay import scene_rt60
-
     if len(scene.spots) < 4 or len(scene.obstacles) > MAX_OBSTACLES:
         return False
     grid = build_grid(scene)
@@ -292,7 +290,7 @@ def _acceptable(scene: Scene, rooms: list[tuple[float, ...]]) -> bool:
     for x0, y0, x1, y1 in rooms:
         if not np.any((c[:, 0] > x0) & (c[:, 0] < x1) & (c[:, 1] > y0) & (c[:, 1] < y1)):
             return False
-    rt = scene_rt60(scene)
+    rt = scene.eyring_rt60()
     lo, hi = RT60_RANGE
     return bool(np.all((rt[2:4] >= lo) & (rt[2:4] <= hi)))
 
@@ -300,8 +298,8 @@ def _acceptable(scene: Scene, rooms: list[tuple[float, ...]]) -> bool:
 def _check_args(seed: int, split: str) -> None:
     if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0:
         raise ConfigError(f"generator seed must be a non-negative integer (got {seed!r})")
-    if split not in _SPLITS:
-        raise ConfigError(f"generator split must be one of {', '.join(_SPLITS)} (got {split!r})")
+    if split not in SPLITS:
+        raise ConfigError(f"generator split must be one of {', '.join(SPLITS)} (got {split!r})")
 
 
 def _generate(seed: int, split: str) -> tuple[dict, Scene]:

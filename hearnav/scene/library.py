@@ -15,7 +15,7 @@ from pathlib import Path
 
 from hearnav.errors import ConfigError, SceneError, unknown_name
 from hearnav.scene import generator
-from hearnav.scene.format import SceneSpec
+from hearnav.scene.format import SPLITS, SceneSpec
 from hearnav.scene.loader import load_scene
 from hearnav.scene.model import Scene
 
@@ -23,7 +23,6 @@ from hearnav.scene.model import Scene
 DEFAULT_SCENE = "maple-flat"
 #: Environment variable with extra scene folders.
 ENV_VAR = "HEARNAV_SCENES"
-SPLITS = ("train", "val", "test")
 _SCHEMA_DIALECT = "https://json-schema.org/draft/2020-12/schema"
 
 

@@ -7,6 +7,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from hearnav.physics.reverberation import eyring
+
 from hearnav.scene.format import CATEGORY_NAMES, SceneSpec
 from hearnav.scene.materials import Material
 
@@ -111,6 +113,12 @@ class Scene:
         """Air volume in m^3 (room minus obstacles)."""
         solid = sum(float(polygon_area(ob.polygon)) * ob.height for ob in self.obstacles)
         return self.floor_area * self.height - solid
+
+    def eyring_rt60(self, c: float = 343.0, band: int | None = None) -> float | np.ndarray:
+        """Eyring's estimate of the reverberation time from the scene's surfaces: (n_bands,) seconds, or one band's."""
+        areas, absorption = self.surfaces()
+        t = eyring(self.volume, areas, absorption, c)
+        return t if band is None else float(t[band])
 
 
 def polygon_area(points: np.ndarray) -> float:

@@ -6,10 +6,11 @@ Importing the package registers the built-in separators (``ear``, ``delay-and-su
 
 from hearnav.separation import separators as _builtin  # noqa: F401  (registers the built-ins)
 from hearnav.separation.context import SeparationContext
-from hearnav.separation.direction import expected_itd, gcc_phat
+from hearnav.physics.head import expected_itd
+from hearnav.physics.steering import steering_vector
+from hearnav.separation.direction import gcc_phat
 from hearnav.separation.metrics import si_sdr, si_sdr_batch
 from hearnav.separation.registry import Separator, get_separator, register_separator, separator_names
-from hearnav.separation.steering import steering_vector
 
 __all__ = [
     "SeparationContext",

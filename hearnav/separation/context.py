@@ -8,9 +8,9 @@ from functools import lru_cache
 
 import numpy as np
 
-from hearnav.acoustics import head
 from hearnav.errors import ConfigError
-from hearnav.separation.direction import ear_betas
+from hearnav.physics.head import HEAD_RADIUS
+from hearnav.physics.steering import das_conjugates, steering_vector
 from hearnav.separation.stft import (
     check_stft_settings,
     istft,
@@ -49,7 +49,7 @@ class SeparationContext:
     n_fft: int = 512
     hop: int = 128
     target_image: np.ndarray | None = field(default=None, compare=False, repr=False)
-    radius: float = head.HEAD_RADIUS
+    radius: float = HEAD_RADIUS
     c: float = 343.0
     known_stft: tuple[np.ndarray, np.ndarray] | None = field(default=None, compare=False, repr=False)
     known_das: np.ndarray | None = field(default=None, compare=False, repr=False)
@@ -125,54 +125,18 @@ class SeparationContext:
         return _steering(float(self.azimuth), float(self.fs), int(self.n_fft), float(self.radius), float(self.c))
 
 
-@lru_cache(maxsize=16)
-def _shadow_basis(fs: float, n_fft: int, radius: float, c: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """(F,) angular frequencies of the STFT bins and the head-shadow basis L, P there (H = L + alpha P)."""
-    omega = 2 * np.pi * stft_freqs(n_fft, fs)
-    return (omega, *head.shadow_basis(omega, radius, c))
-
-
 @lru_cache(maxsize=4096)
 def _steering(azimuth: float, fs: float, n_fft: int, radius: float, c: float) -> np.ndarray:
-    """:func:`~hearnav.separation.steering.steering_vector` on the STFT bins, from the affine head-shadow basis
-    (the same model, computed once per bin grid; every pose of an episode asks for a new azimuth)."""
-    omega, low, high = _shadow_basis(fs, n_fft, radius, c)
-    beta = ear_betas(azimuth)  # (2,)
-    shadow = low + head.shadow_alpha(beta)[:, None] * high  # (2, F)
-    d = np.ascontiguousarray((shadow * np.exp(-1j * omega * head.woodworth_delay(beta, radius, c)[:, None])).T)
+    """:func:`hearnav.physics.steering.steering_vector` on the STFT bins, read-only (every pose of an episode asks
+    for a new azimuth)."""
+    d = np.ascontiguousarray(steering_vector(azimuth, stft_freqs(n_fft, fs), radius, c))
     d.flags.writeable = False
     return d
-
-
-def das_conjugates(azimuths: np.ndarray, fs: float, n_fft: int = 512, radius: float = head.HEAD_RADIUS,
-                   c: float = 343.0) -> np.ndarray:
-    """Conjugate delay-and-sum weights w^H, w = d / (d^H d), towards many azimuths at once.
-
-    With the head model's steering vector d = H exp(-j omega tau) per ear (Brown & Duda's head shadow H, the
-    Woodworth delay tau), w^H = conj(H) exp(j omega tau) / sum over ears of |H|^2, since |d| = |H|.
-
-    Parameters
-    ----------
-    azimuths : (...) radians relative to the heading, counter-clockwise.
-    fs, n_fft : sampling rate (Hz) and STFT frame; the weights are on its F = n_fft // 2 + 1 bins.
-    radius, c : head radius (m) and speed of sound (m/s).
-
-    Returns
-    -------
-    (..., 2, F) complex64 weights, ear 0 left.
-    """
-    azimuths = np.asarray(azimuths, dtype=float)
-    omega, low, high = _shadow_basis(float(fs), int(n_fft), float(radius), float(c))
-    beta = ear_betas(azimuths.reshape(-1)).reshape(*azimuths.shape, 2)  # (..., 2)
-    shadow = low + head.shadow_alpha(beta)[..., None] * high  # (..., 2, F)
-    phase = omega * head.woodworth_delay(beta, radius, c)[..., None]  # (..., 2, F)
-    norm = 1.0 / (shadow.real ** 2 + shadow.imag ** 2).sum(axis=-2, keepdims=True)  # (..., 1, F)
-    return (np.conj(shadow) * (np.cos(phase) + 1j * np.sin(phase)) * norm).astype(np.complex64)
 
 
 @lru_cache(maxsize=4096)
 def _das_conjugate(azimuth: float, fs: float, n_fft: int, radius: float, c: float) -> np.ndarray:
     """:meth:`SeparationContext.das_conjugate`: :func:`das_conjugates` of one azimuth, read-only."""
-    w = das_conjugates(np.array([azimuth]), fs, n_fft, radius, c)[0]
+    w = das_conjugates(np.array([azimuth]), stft_freqs(n_fft, fs), radius, c)[0]
     w.flags.writeable = False
     return w

@@ -1,96 +1,24 @@
-"""Direction cues: GCC-PHAT time-delay estimation and the interaural delays the head model predicts.
+"""Direction cues: GCC-PHAT time-delay estimation (the head model's interaural delays are in hearnav.physics.head).
 
 Azimuths are relative to the listener's heading, in radians, counter-clockwise (0 straight ahead, +pi/2 to the
 left), for arrivals in the horizontal plane.
 
 Sign convention: a positive delay ``tau`` means ``x1`` lags ``x2`` (x1(t) = x2(t - tau)). With
-``x1 = left ear`` and ``x2 = right ear`` that is the value :func:`expected_itd` returns, which is negative for a
+``x1 = left ear`` and ``x2 = right ear`` that is the value :func:`hearnav.physics.head.expected_itd` returns, which is negative for a
 source on the left (the left ear hears it first).
 
 References
 ----------
 - C. H. Knapp & G. C. Carter, "The generalized correlation method for estimation of time delay",
   IEEE Trans. ASSP 24(4), 1976: R(tau) = IFFT[ X1 X2* / |X1 X2*| ] (the phase transform, PHAT).
-- R. S. Woodworth & H. Schlosberg, *Experimental Psychology* (1954), per-ear delays as in
-  :func:`hearnav.acoustics.head.woodworth_delay`.
 """
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 import scipy.fft as sfft
 
-from hearnav.acoustics import head
 from hearnav.errors import ConfigError
-
-
-def ear_betas(azimuth: float | np.ndarray) -> np.ndarray:
-    """Angle between a horizontal arrival and each ear axis.
-
-    Parameters
-    ----------
-    azimuth : scalar or (A,) radians, relative to the heading, counter-clockwise.
-
-    Returns
-    -------
-    (..., 2) angles beta in [0, pi], index 0 left ear, 1 right ear.
-    """
-    if np.ndim(azimuth) == 0:  # one arrival: the ear axes are +-90 degrees, so cos(beta) = +-sin(azimuth)
-        side = math.sin(float(azimuth))
-        return np.arccos(np.clip(np.array([side, -side]), -1.0, 1.0))
-    az = np.atleast_1d(np.asarray(azimuth, dtype=float))
-    directions = np.stack([np.cos(az), np.sin(az), np.zeros_like(az)], axis=-1)  # (A, 3)
-    beta = head.ear_angles(directions, 0.0).T  # (A, 2)
-    return beta.reshape(np.shape(azimuth) + (2,))
-
-
-def ear_delays(azimuth: float | np.ndarray, radius: float = head.HEAD_RADIUS, c: float = 343.0) -> np.ndarray:
-    """Woodworth arrival time at each ear relative to the head centre, seconds (negative means earlier).
-
-    Parameters
-    ----------
-    azimuth : scalar or (A,) radians.
-
-    Returns
-    -------
-    (..., 2) delays, index 0 left, 1 right.
-    """
-    return head.woodworth_delay(ear_betas(azimuth), radius, c)
-
-
-def expected_itd(azimuth: float | np.ndarray, radius: float = head.HEAD_RADIUS, c: float = 343.0) -> np.ndarray:
-    """Delay of the left ear relative to the right ear, seconds: where ``gcc_phat(left, right)`` peaks.
-
-    Equal to -(a/c)(theta + sin theta) for a source on the left at lateral angle theta (Woodworth).
-
-    Parameters
-    ----------
-    azimuth : scalar or (A,) radians.
-
-    Returns
-    -------
-    (...) seconds, same shape as ``azimuth``.
-    """
-    d = ear_delays(azimuth, radius, c)
-    return d[..., 0] - d[..., 1]
-
-
-def azimuth_from_itd(itd: float | np.ndarray, radius: float = head.HEAD_RADIUS, c: float = 343.0) -> np.ndarray:
-    """Frontal azimuth in [-pi/2, pi/2] whose :func:`expected_itd` is ``itd`` (front-back ambiguous).
-
-    Parameters
-    ----------
-    itd : scalar or (...) seconds (left relative to right); values beyond the head's range saturate at +/-pi/2.
-
-    Returns
-    -------
-    (...) radians.
-    """
-    grid = np.linspace(-np.pi / 2, np.pi / 2, 2001)
-    table = expected_itd(grid, radius, c)  # decreasing in azimuth
-    return np.interp(-np.asarray(itd, dtype=float), -table, grid)
 
 
 def gcc_phat(x1: np.ndarray, x2: np.ndarray, fs: float, max_tau: float | None = None,

@@ -3,7 +3,7 @@
 Each takes a (2, n) binaural mixture (left ear, right ear) and a
 :class:`~hearnav.separation.context.SeparationContext` and returns an (n,) estimate of the target at the
 head-centre reference point in free field, the same length as the input. The beamformers steer the head model's
-far-field steering vector (:mod:`hearnav.separation.steering`) at ``ctx.azimuth``.
+far-field steering vector (:mod:`hearnav.physics.steering`) at ``ctx.azimuth``.
 
 - ``ear``: the unprocessed ear nearer the target (left for azimuth in (0, pi), right for (pi, 2 pi); within
   1e-9 of straight ahead or behind, where neither ear is nearer, the mean of the two ears). The input reference.

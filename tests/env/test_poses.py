@@ -15,7 +15,7 @@ import pytest
 from hearnav.env.poses import ScenePoses, spot_directions
 from hearnav.separation import SeparationContext, steering_vector
 from hearnav.separation.beamform import das_weights
-from hearnav.separation.context import das_conjugates
+from hearnav.physics.steering import das_conjugates
 from hearnav.separation.stft import stft_freqs
 
 FS = 16000
@@ -59,7 +59,7 @@ def test_scene_das_table_is_the_delay_and_sum_weights_of_each_bearing(world):
 
 def test_vectorised_weights_equal_the_contexts_own(world):
     az = np.random.default_rng(0).uniform(-np.pi, np.pi, (3, 4))
-    table = das_conjugates(az, FS)
+    table = das_conjugates(az, stft_freqs(512, FS))
     assert table.shape == (3, 4, 2, 257) and table.dtype == np.complex64
     for idx in np.ndindex(az.shape):
         np.testing.assert_array_equal(table[idx], SeparationContext(FS, float(az[idx])).das_conjugate())

@@ -7,7 +7,6 @@ import time
 import numpy as np
 import pytest
 
-from hearnav.acoustics.decay import scene_rt60
 from hearnav.errors import ConfigError
 from hearnav.scene import build_grid, generator, parse_text
 from hearnav.scene.format import SceneSpec
@@ -50,7 +49,7 @@ def test_generated_scene_is_valid_and_plausible(seed):
     assert 0 < grid.n_cells <= generator.MAX_CELLS
     assert grid.start_cells.size >= 3
     assert grid_moves_cross_solids(scene, grid) == 0
-    rt = scene_rt60(scene)
+    rt = scene.eyring_rt60()
     assert np.all((rt[2:4] >= 0.25) & (rt[2:4] <= 1.0))
 
 

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import pytest
 
-from hearnav.acoustics.decay import scene_rt60
 from hearnav.errors import ConfigError, SceneError
 from hearnav.scene import build_grid, library
 from tests.scene.geometry_checks import grid_moves_cross_solids
@@ -41,7 +40,7 @@ def test_bundled_scene_is_plausible(path):
     assert 2.4 <= scene.height <= 3.2
     assert 1.2 <= scene.ear_height <= 1.6
     assert scene.spec.grid.spacing == 0.5
-    rt = scene_rt60(scene)
+    rt = scene.eyring_rt60()
     for band in (BAND_500, BAND_1K):
         assert 0.15 <= rt[band] <= 1.0, f"{scene.name}: Eyring RT60 {rt[band]:.2f} s in band {band}"
 
@@ -59,7 +58,7 @@ def test_split_counts():
 
 
 def test_studio_is_dry():
-    rt = scene_rt60(library.load_named("aspen-studio"))
+    rt = library.load_named("aspen-studio").eyring_rt60()
     assert 0.15 <= rt[BAND_500] <= 0.35 and 0.15 <= rt[BAND_1K] <= 0.35
 
 
@@ -69,7 +68,7 @@ def test_default_scene():
     assert scene.split in ("train", "val")
     assert 50.0 <= scene.floor_area <= 70.0
     assert len(scene.spots) >= 4
-    assert 0.3 <= scene_rt60(scene, band=BAND_1K) <= 0.9
+    assert 0.3 <= scene.eyring_rt60(band=BAND_1K) <= 0.9
 
 
 def test_scenes_dir_is_next_to_package():

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 import scipy.fft as sfft
 
-from hearnav.acoustics import head
+from hearnav.physics import head
 from hearnav.errors import ConfigError
 from hearnav.separation import (
     SeparationContext,
@@ -13,7 +13,7 @@ from hearnav.separation import (
     steering_vector,
 )
 from hearnav.separation.beamform import das_weights
-from hearnav.separation.direction import azimuth_from_itd, ear_betas, ear_delays
+from hearnav.physics.head import azimuth_from_itd, ear_betas, ear_delays
 from hearnav.separation.stft import stft_freqs
 
 FS = 16000
@@ -124,7 +124,7 @@ def test_steering_vector_symmetries():
 
 
 def test_steering_vector_matches_head_model():
-    # Definition (hearnav.acoustics.head): d_e(w) = H(w, beta_e) exp(-j w tau_e) with beta_e from ear_angles
+    # Definition (hearnav.physics.head): d_e(w) = H(w, beta_e) exp(-j w tau_e) with beta_e from ear_angles
     # for a listener facing +x and the arrival direction (cos az, sin az, 0).
     az = 0.4
     freqs = np.linspace(0, 8000, 65)
@@ -143,7 +143,7 @@ def test_scalar_azimuths_take_the_same_ear_angles_as_arrays():
 
 @pytest.mark.parametrize("azimuth", [0.0, 0.4, np.pi / 2, -2.5, np.pi])
 def test_context_steering_is_the_steering_vector_on_the_stft_bins(azimuth):
-    # Brown & Duda's H(w, beta) = L(w) + alpha(beta) P(w) is an identity of the model (hearnav.acoustics.head),
+    # Brown & Duda's H(w, beta) = L(w) + alpha(beta) P(w) is an identity of the model (hearnav.physics.head),
     # so the context's cached-basis form must equal steering_vector to rounding.
     ctx = SeparationContext(fs=FS, azimuth=azimuth)
     np.testing.assert_allclose(ctx.steering(), steering_vector(azimuth, stft_freqs(512, FS)), atol=1e-12)

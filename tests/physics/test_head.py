@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from hearnav.acoustics import head
+from hearnav.physics import head
 
 A, C = 0.0875, 343.0
 

@@ -17,6 +17,8 @@ References
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 #: Head radius in metres (Brown & Duda's average adult head).
@@ -110,3 +112,70 @@ def head_shadow(omega: np.ndarray, beta: np.ndarray, radius: float = HEAD_RADIUS
     x = 1j * np.asarray(omega, dtype=float) / (2 * c / radius)
     alpha = shadow_alpha(beta)[..., None]
     return (1 + alpha * x) / (1 + x)
+
+
+def ear_betas(azimuth: float | np.ndarray) -> np.ndarray:
+    """Angle between a horizontal arrival and each ear axis.
+
+    Parameters
+    ----------
+    azimuth : scalar or (A,) radians, relative to the heading, counter-clockwise.
+
+    Returns
+    -------
+    (..., 2) angles beta in [0, pi], index 0 left ear, 1 right ear.
+    """
+    if np.ndim(azimuth) == 0:  # one arrival: the ear axes are +-90 degrees, so cos(beta) = +-sin(azimuth)
+        side = math.sin(float(azimuth))
+        return np.arccos(np.clip(np.array([side, -side]), -1.0, 1.0))
+    az = np.atleast_1d(np.asarray(azimuth, dtype=float))
+    directions = np.stack([np.cos(az), np.sin(az), np.zeros_like(az)], axis=-1)  # (A, 3)
+    beta = ear_angles(directions, 0.0).T  # (A, 2)
+    return beta.reshape(np.shape(azimuth) + (2,))
+
+
+def ear_delays(azimuth: float | np.ndarray, radius: float = HEAD_RADIUS, c: float = 343.0) -> np.ndarray:
+    """Woodworth arrival time at each ear relative to the head centre, seconds (negative means earlier).
+
+    Parameters
+    ----------
+    azimuth : scalar or (A,) radians.
+
+    Returns
+    -------
+    (..., 2) delays, index 0 left, 1 right.
+    """
+    return woodworth_delay(ear_betas(azimuth), radius, c)
+
+
+def expected_itd(azimuth: float | np.ndarray, radius: float = HEAD_RADIUS, c: float = 343.0) -> np.ndarray:
+    """Delay of the left ear relative to the right ear, seconds: where ``gcc_phat(left, right)`` peaks.
+
+    Equal to -(a/c)(theta + sin theta) for a source on the left at lateral angle theta (Woodworth).
+
+    Parameters
+    ----------
+    azimuth : scalar or (A,) radians.
+
+    Returns
+    -------
+    (...) seconds, same shape as ``azimuth``.
+    """
+    d = ear_delays(azimuth, radius, c)
+    return d[..., 0] - d[..., 1]
+
+
+def azimuth_from_itd(itd: float | np.ndarray, radius: float = HEAD_RADIUS, c: float = 343.0) -> np.ndarray:
+    """Frontal azimuth in [-pi/2, pi/2] whose :func:`expected_itd` is ``itd`` (front-back ambiguous).
+
+    Parameters
+    ----------
+    itd : scalar or (...) seconds (left relative to right); values beyond the head's range saturate at +/-pi/2.
+
+    Returns
+    -------
+    (...) radians.
+    """
+    grid = np.linspace(-np.pi / 2, np.pi / 2, 2001)
+    table = expected_itd(grid, radius, c)  # decreasing in azimuth
+    return np.interp(-np.asarray(itd, dtype=float), -table, grid)

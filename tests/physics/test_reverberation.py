@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from hearnav.acoustics import decay
+from hearnav.physics import reverberation as decay
 
 
 def test_sabine_and_eyring_worked_example():

@@ -81,10 +81,3 @@ def measure_rt60(response: np.ndarray, fs: float, evaluation: str = "T30") -> fl
     response : (n,) samples.
     """
     return fit_decay(schroeder_db(np.asarray(response, float) ** 2), fs, evaluation)
-
-
-def scene_rt60(scene, c: float = 343.0, band: int | None = None) -> float | np.ndarray:
-    """Eyring estimate for a scene from its surfaces (per band, or one band)."""
-    areas, absorption = scene.surfaces()
-    t = eyring(scene.volume, areas, absorption, c)
-    return t if band is None else float(t[band])
