@@ -1,4 +1,5 @@
-"""Build the default scene's responses on one core and compare the fast renderer with the straightforward one.
+"""Build the default scene's responses on one core, compare the fast renderer with the straightforward one, time
+the procedural generator.
 
 Prints: stage times of a full build (no cache), the cache size, and, for a sample of (cell, spot) pairs, the
 time per binaural early response of the fast renderer (affine head shadow + band trains + batched FFT) and of
@@ -83,6 +84,14 @@ def main() -> None:
     print(f"  straightforward renderer: {t_slow * 1e3:8.3f} ms per response")
     print(f"  ratio: {t_slow / t_fast:.1f}x faster  [goal >= 20x]; relative difference below 0.9 Nyquist {err:.1e}")
     del PathSet
+
+    from hearnav.scene import generator
+
+    t0 = time.perf_counter()
+    for seed in range(100, 110):
+        generator.generate_scene(seed)
+    print(f"procedural scenes: {(time.perf_counter() - t0) / 10 * 1e3:.0f} ms per scene (gen-100 .. gen-109)  "
+          f"[goal < 500 ms]")
 
 
 if __name__ == "__main__":

@@ -34,7 +34,8 @@ def _cell(grid, x, y):
 
 def test_direct_path_delay_and_inverse_distance(anechoic):
     # Free-field propagation: delay r/c within one sample, and 20 log10(2) = 6.02 dB less level per doubling
-    # of distance (point source, shared REFERENCES.md), within 0.2 dB. Listener faces the source (heading 2 =
+    # of distance (spherical spreading of a point source, Kinsler et al., Fundamentals of Acoustics, 4th ed.
+    # 2000, sec. 5.11), within 0.2 dB. Listener faces the source (heading 2 =
     # 180 deg = -x), so both ears see it at beta = 90 deg and the ear offsets vanish.
     scene, grid, resp = anechoic
     levels = []
@@ -116,7 +117,8 @@ def reverberant():
 @pytest.mark.slow
 def test_rt60_against_eyring_and_sabine(reverberant):
     # Schroeder backward integration over ISO 3382-1's T20 and T30 ranges, against Eyring (within 15 %)
-    # and Sabine (within 20 %, mean absorption 0.15 < 0.2); formulas as in shared REFERENCES.md.
+    # and Sabine (within 20 %, mean absorption 0.15 < 0.2); Sabine (1900) and Eyring (JASA 1, 1930) as given in
+    # Kuttruff, Room Acoustics, 5th ed. 2009, ch. 5.
     scene, settings, grid, resp = reverberant
     areas, absorption = scene.surfaces()
     eyring = float(decay.eyring(scene.volume, areas, absorption[:, 3]))
@@ -153,8 +155,6 @@ def test_late_tail_is_diffuse_between_the_ears(reverberant):
     # for ears 2a = 0.175 m apart its square stays below 0.05 above 1 kHz. The tails' measured magnitude-squared
     # coherence must stay low (<= 0.3) above 1 kHz.
     scene, settings, grid, resp = reverberant
-    k = 2 * np.pi * np.linspace(1000, 7000, 200) / C
-    assert np.max((np.sin(k * 0.175) / (k * 0.175)) ** 2) < 0.05
     tail = resp.tail.astype(float)[:, 0, :, int(0.08 * FS):]
     f, coh = signal.coherence(tail[:, 0], tail[:, 1], fs=FS, nperseg=256, axis=-1)
     assert np.mean(coh[:, f > 1000]) <= 0.3
@@ -190,8 +190,6 @@ def test_mirror_symmetry_swaps_the_ears():
     np.testing.assert_allclose(grid_a.centers[ca], [1.5, 1.5])
     np.testing.assert_allclose(grid_b.centers[cb], [1.5, 2.5])
     ea, eb = ra.early[ca, 0, 0].astype(float), rb.early[cb, 0, 0].astype(float)
-    # listener at y = 1.5 and 2.5 mirror about y = 2 only together with the source: check that geometry
-    assert 4.0 - 1.5 == 2.5 and 4.0 - 1.0 == 3.0
     np.testing.assert_allclose(ea[0], eb[1], atol=2e-3 * np.abs(ea).max())
     np.testing.assert_allclose(ea[1], eb[0], atol=2e-3 * np.abs(ea).max())
 

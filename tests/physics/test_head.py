@@ -10,7 +10,7 @@ A, C = 0.0875, 343.0
 
 def test_woodworth_itd_front_and_side():
     # Woodworth & Schlosberg (1954): ITD = (a/c)(theta + sin theta); 0 at the front, 0.656 ms at 90 degrees
-    # for a = 8.75 cm, c = 343 m/s (value listed in shared REFERENCES.md). Formula to 1 microsecond.
+    # for a = 8.75 cm, c = 343 m/s (Woodworth's formula evaluated by hand: (0.0875 / 343)(pi/2 + 1) = 0.656 ms). Formula to 1 microsecond.
     assert head.woodworth_itd(0.0) == pytest.approx(0.0, abs=1e-9)
     assert head.woodworth_itd(np.pi / 2) == pytest.approx(0.656e-3, abs=1e-6)
 
@@ -27,7 +27,8 @@ def test_per_ear_delays_give_woodworth_itd(theta_deg):
 
 @pytest.mark.parametrize("beta_deg, alpha", [(0, 2.0), (90, 0.756), (150, 0.1), (180, 0.281)])
 def test_brown_duda_alpha_values(beta_deg, alpha):
-    # Brown & Duda 1998, alpha_min = 0.1, theta_min = 150 deg; values from shared REFERENCES.md.
+    # Brown & Duda 1998, alpha_min = 0.1, theta_min = 150 deg; alpha(beta) = (1 + a_min/2) + (1 - a_min/2) cos(beta / theta_min * 180 deg)
+    # (their eq. 2) evaluated by hand at these angles.
     assert head.shadow_alpha(np.deg2rad(beta_deg)) == pytest.approx(alpha, abs=1e-3)
 
 

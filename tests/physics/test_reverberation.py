@@ -7,7 +7,7 @@ from hearnav.physics import reverberation as decay
 
 
 def test_sabine_and_eyring_worked_example():
-    # python-acoustics' own test suite (listed in shared REFERENCES.md): surfaces 240, 600, 500 m^2 with
+    # Worked example of python-acoustics' test suite (tests/test_room.py, PyPI package 'acoustics'): surfaces 240, 600, 500 m^2 with
     # alpha 0.10, 0.25, 0.45, V = 3000 m^3, c = 343 m/s -> Sabine 1.2114 s, Eyring 1.0204 s.
     areas = np.array([240.0, 600.0, 500.0])
     alpha = np.array([0.10, 0.25, 0.45])
@@ -16,14 +16,14 @@ def test_sabine_and_eyring_worked_example():
 
 
 def test_sabine_constant():
-    # 24 ln(10) / c = 0.1611 s/m at c = 343 m/s (Sabine's constant, shared REFERENCES.md).
+    # 24 ln(10) / c = 0.1611 s/m at c = 343 m/s (Sabine's constant; Kuttruff, Room Acoustics, 5th ed. 2009, eq. 5.9).
     assert decay.sabine(1.0, np.array([1.0]), np.array([1.0])) == pytest.approx(0.1611, abs=1e-4)
 
 
 @pytest.mark.parametrize("evaluation", ["T20", "T30"])
 @pytest.mark.parametrize("t60", [0.3, 0.6, 1.2])
 def test_schroeder_measures_synthetic_decay(evaluation, t60):
-    # Synthetic check from shared REFERENCES.md: h = noise * exp(-6.91 t / T) measures T within about 5 %,
+    # Synthetic decay, common practice: h = noise * exp(-6.91 t / T) (a 60 dB energy decay over T) measures T within about 5 %,
     # by Schroeder backward integration (Schroeder, JASA 1965) over ISO 3382-1 ranges.
     fs = 16000
     rng = np.random.default_rng(1)
