@@ -110,15 +110,20 @@ def _check_heights(spec: fmt.SceneSpec, problems: Problems) -> bool:
     return ok
 
 
+def _check_unique(kind: str, name: str, path: str, names: set[str], problems: Problems) -> None:
+    """Report a name already in ``names`` (an obstacle's or a spot's), then add it."""
+    if name in names:
+        problems.add(f"{path}.name", f"duplicate {kind} name (expected unique names, got {name!r} twice)")
+    names.add(name)
+
+
 def _resolve_obstacles(spec: fmt.SceneSpec, room: shapely.Polygon | None, problems: Problems) -> list[SolidObstacle]:
     solids: list[SolidObstacle] = []
     shapes: list[tuple[str, shapely.Polygon]] = []
     names: set[str] = set()
     for k, ob in enumerate(spec.obstacles):
         path = f"obstacles[{k}]"
-        if ob.name in names:
-            problems.add(f"{path}.name", f"duplicate obstacle name (expected unique names, got {ob.name!r} twice)")
-        names.add(ob.name)
+        _check_unique("obstacle", ob.name, path, names, problems)
         poly = obstacle_polygon(ob, path, problems)
         material = resolve_material(ob.material, f"{path}.material", problems)
         full = ob.height == "ceiling"
@@ -175,9 +180,7 @@ def _resolve_spots(spec: fmt.SceneSpec, room: shapely.Polygon | None, solids: li
     names: set[str] = set()
     for k, sp in enumerate(spec.spots):
         path = f"spots[{k}]"
-        if sp.name in names:
-            problems.add(f"{path}.name", f"duplicate spot name (expected unique names, got {sp.name!r} twice)")
-        names.add(sp.name)
+        _check_unique("spot", sp.name, path, names, problems)
         xyz = np.array([sp.position[0], sp.position[1], sp.height], dtype=float)
         cats = tuple(sp.categories) if sp.categories else fmt.CATEGORY_NAMES
         spots.append(SourceSpot(sp.name, xyz, cats))

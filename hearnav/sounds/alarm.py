@@ -13,7 +13,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from hearnav.sounds.common import check_pool, n_samples, spread, table_rng, take_rng
+from hearnav.sounds.common import n_samples, pool_columns, take_rng
 from hearnav.sounds.dsp import harmonic_sum, phase_cycles, smooth_gate
 
 NAME = "alarm"
@@ -64,14 +64,10 @@ class AlarmVoice:
 @functools.cache
 def voices(pool: str) -> tuple[AlarmVoice, ...]:
     """The fixed voices of a pool: each pattern of the pool with each timbre of the pool."""
-    check_pool(pool)
-    choices, n = POOL_CHOICES[pool], POOL_SIZES[pool]
-    rng = table_rng(NAME, pool)
-    f_low = spread(rng, n, POOL_RANGES[pool]["f_low_hz"])
-    f_high = spread(rng, n, POOL_RANGES[pool]["f_high_hz"])
-    patterns, timbres = choices["patterns"], choices["timbres"]
+    rng, (f_low, f_high) = pool_columns(NAME, pool, POOL_SIZES, POOL_RANGES, ("f_low_hz", "f_high_hz"))
+    patterns, timbres = POOL_CHOICES[pool]["patterns"], POOL_CHOICES[pool]["timbres"]
     out = []
-    for i in range(n):
+    for i in range(len(f_low)):
         pattern = patterns[i % len(patterns)]
         timing = {key: float(rng.uniform(*span)) for key, span in TIMING[pattern].items()}
         out.append(AlarmVoice(pattern, timbres[(i // len(patterns)) % len(timbres)], float(f_low[i]),

@@ -80,6 +80,17 @@ def n_samples(duration_s: float, fs: int) -> int:
     return int(round(duration_s * fs))
 
 
+def pool_columns(category: str, pool: str, sizes: dict[str, int],
+                 ranges: dict[str, dict[str, tuple[tuple[float, float], ...]]],
+                 keys: tuple[str, ...]) -> tuple[np.random.Generator, list[np.ndarray]]:
+    """The voice-table generator of a (checked) pool (:func:`table_rng`) and, drawn from it in order, the pool's
+    ``sizes[pool]`` values of each key spread over its ranges (:func:`spread`); the generator is returned for
+    further draws."""
+    check_pool(pool)
+    rng = table_rng(category, pool)
+    return rng, [spread(rng, sizes[pool], ranges[pool][key]) for key in keys]
+
+
 def spread(rng: np.random.Generator, n: int, ranges: tuple[tuple[float, float], ...]) -> np.ndarray:
     """``n`` values spread over one or more disjoint ranges, alternating between them.
 

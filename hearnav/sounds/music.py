@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from hearnav.sounds.common import check_pool, n_samples, spread, table_rng, take_rng
+from hearnav.sounds.common import n_samples, pool_columns, take_rng
 from hearnav.sounds.dsp import harmonic_sum
 
 NAME = "music"
@@ -108,12 +108,9 @@ class MusicVoice:
 @functools.cache
 def voices(pool: str) -> tuple[MusicVoice, ...]:
     """The fixed voices of a pool (every instrument of the pool, each with a scale of the pool)."""
-    check_pool(pool)
-    choices, n = POOL_CHOICES[pool], POOL_SIZES[pool]
-    rng = table_rng(NAME, pool)
-    roots = spread(rng, n, POOL_RANGES[pool]["root_midi"])
-    tempi = spread(rng, n, POOL_RANGES[pool]["tempo_bpm"])
-    instruments, scales = choices["instruments"], choices["scales"]
+    _, (roots, tempi) = pool_columns(NAME, pool, POOL_SIZES, POOL_RANGES, ("root_midi", "tempo_bpm"))
+    instruments, scales = POOL_CHOICES[pool]["instruments"], POOL_CHOICES[pool]["scales"]
+    n = len(roots)
     return tuple(
         MusicVoice(instruments[i % len(instruments)], scales[(i + i // len(instruments)) % len(scales)],
                    int(round(roots[i])), float(tempi[i]))

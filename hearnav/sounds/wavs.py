@@ -50,16 +50,10 @@ def resample(x: np.ndarray, fs_in: int, fs_out: int) -> np.ndarray:
 
 
 def load_sound(path: Path, fs: int, min_duration_s: float) -> np.ndarray:
-    """Read one audio file as mono at ``fs`` Hz, scaled to the reference level.
+    """Read one audio file as mono at ``fs`` Hz, scaled to the reference level: (n,) float32 samples.
 
-    Returns
-    -------
-    numpy.ndarray, shape (n,), float32
-
-    Raises
-    ------
-    SoundError
-        Naming the file, if it cannot be read, is shorter than ``min_duration_s`` or is silent.
+    Raises :class:`~hearnav.errors.SoundError`, naming the file, when it cannot be read, is shorter than
+    ``min_duration_s`` or is silent.
     """
     try:
         data, fs_file = soundfile.read(str(path), dtype="float64", always_2d=True)

@@ -96,19 +96,24 @@ def _one_line(err: pytest.ExceptionInfo) -> str:
     return message
 
 
-def test_silent_file(tmp_path):
-    soundfile.write(tmp_path / "quiet.wav", np.zeros(16000), 16000)
-    with pytest.raises(SoundError, match=r"sound file '.*quiet\.wav' is silent: expected an active level above "
-                       r"-90 dBFS, got all samples zero; remove the file") as err:
-        sounds.WavFolder(tmp_path)
-    _one_line(err)
+def _write_silent(folder):
+    soundfile.write(folder / "quiet.wav", np.zeros(16000), 16000)
 
 
-def test_unreadable_file(tmp_path):
-    soundfile.write(tmp_path / "good.wav", tone(440.0, 1.0, 16000), 16000)
-    (tmp_path / "garbage.wav").write_bytes(bytes(range(256)) * 8)
-    with pytest.raises(SoundError, match=r"cannot read sound file '.*garbage\.wav': expected a WAV or FLAC file, "
-                       r"got an error \(.*\); re-export the file") as err:
+def _write_garbage(folder):
+    soundfile.write(folder / "good.wav", tone(440.0, 1.0, 16000), 16000)
+    (folder / "garbage.wav").write_bytes(bytes(range(256)) * 8)
+
+
+@pytest.mark.parametrize("write, message", [
+    (_write_silent, r"sound file '.*quiet\.wav' is silent: expected an active level above -90 dBFS, got all samples "
+                    r"zero; remove the file"),
+    (_write_garbage, r"cannot read sound file '.*garbage\.wav': expected a WAV or FLAC file, got an error \(.*\); "
+                     r"re-export the file"),
+])
+def test_bad_file_is_one_line(tmp_path, write, message):
+    write(tmp_path)
+    with pytest.raises(SoundError, match=message) as err:
         sounds.WavFolder(tmp_path)
     _one_line(err)
 
