@@ -34,7 +34,10 @@ from hearnav.tables.store import Part, PartWriter, digest, open_part, source_dig
 
 #: Frame of the STFT the delay-and-sum weights are tabulated on (the separator's, SeparationContext.n_fft).
 STFT_FRAME = 512
-_POSES_CODE = (poses, steering, head, geometry, grid_module, stft)
+_POSES_CODE = (poses, steering, head, geometry, grid_module, stft.stft_freqs)
+# The mixing code that computes the spectra (the rest of hearnav.listening does not change them).
+_SPECTRA_CODE = (listening.ResponseSpectra.fft_size, listening.fill_spectra, listening.reference_filter,
+                 listening.filter_fits, render)
 _FACTS = ("line_of_sight", "first_delay", "first_gain")
 _GRID_ARRAYS = tuple(f.name for f in dataclasses.fields(Grid) if f.name not in ("spacing", "n_headings"))
 
@@ -103,7 +106,7 @@ def response_spectra(scene: Scene, settings: AcousticSettings, window: int,
     """The scene's :class:`hearnav.listening.ResponseSpectra` for a window length, from the store."""
     window = listening.check_window(window)
     fade = int(round(fade_s * settings.fs))
-    key = digest("spectra", cache_key(scene, settings), window, fade, source_digest(listening, render))
+    key = digest("spectra", cache_key(scene, settings), window, fade, source_digest(*_SPECTRA_CODE))
 
     def build(out: PartWriter) -> None:
         responses = load_or_build(scene, settings)

@@ -14,6 +14,7 @@ from __future__ import annotations
 import contextlib
 import fcntl
 import hashlib
+import inspect
 import json
 import os
 import shutil
@@ -53,10 +54,13 @@ def digest(*parts: object) -> str:
 
 
 def source_digest(*sources: object) -> str:
-    """SHA-256 of source files (modules or paths), so a part built by other code is never reused."""
+    """SHA-256 of source code (modules, functions or file paths), so a part built by other code is never reused."""
     h = hashlib.sha256()
     for source in sources:
-        h.update(Path(getattr(source, "__file__", source)).read_bytes())
+        if callable(source):
+            h.update(inspect.getsource(source).encode())
+        else:
+            h.update(Path(getattr(source, "__file__", source)).read_bytes())
     return h.hexdigest()[:20]
 
 
