@@ -30,10 +30,11 @@ from hearnav.scene import grid as grid_module
 from hearnav.scene.grid import Grid, build_grid
 from hearnav.scene.model import Scene
 from hearnav.separation import stft
+from hearnav.separation.context import SeparationContext
 from hearnav.tables.store import Part, PartWriter, digest, open_part, source_digest, tables_dir
 
-#: Frame of the STFT the delay-and-sum weights are tabulated on (the separator's, SeparationContext.n_fft).
-STFT_FRAME = 512
+#: Frame of the STFT the delay-and-sum weights are tabulated on: the separator's.
+STFT_FRAME = SeparationContext.n_fft
 _POSES_CODE = (poses, steering, head, geometry, grid_module, stft.stft_freqs)
 # The mixing code that computes the spectra (the rest of hearnav.listening does not change them).
 _SPECTRA_CODE = (listening.ResponseSpectra.fft_size, listening.fill_spectra, listening.reference_filter,
