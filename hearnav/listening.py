@@ -10,7 +10,6 @@ reverberant tail of earlier sound reaches the listener inside the window. After 
 
 from __future__ import annotations
 
-from collections import OrderedDict
 from dataclasses import dataclass
 
 import numpy as np
@@ -22,12 +21,8 @@ from hearnav.errors import ConfigError
 
 #: Default cross-fade after a move, in seconds.
 FADE_S = 0.02
-#: Default memory budget of the response-spectrum cache, bytes.
-SPECTRA_BYTES = 512 * 2**20
 #: Rows pocketfft transforms together (float32 vector width): the render pads its row counts to multiples.
 ROW_BLOCK = 4
-#: Bytes per frequency bin of a precomputed response spectrum, by precision.
-_BYTES_PER_BIN = {"single": 8, "half": 4}
 
 
 @dataclass(frozen=True)
@@ -59,24 +54,98 @@ def _part(a: np.ndarray | None, cut: slice) -> np.ndarray | None:
     return None if a is None else a[..., cut]
 
 
-class ListeningWorld:
-    """A scene's responses ready for FFT mixing of windows of ``window`` samples."""
+@dataclass(frozen=True)
+class ResponseSpectra:
+    """A scene's responses on the mixing FFT grid of one window length and cross-fade, and what the target
+    reference needs: the tables :class:`ListeningWorld` mixes from (memory maps of the store, or in memory).
 
-    def __init__(self, responses: Responses, window: int, fade_s: float = FADE_S, spectra_bytes: int = SPECTRA_BYTES):
-        if window <= 0:
-            raise ConfigError(f"window must be a positive number of samples (got {window})")
-        self.responses = responses
-        self.fs = responses.fs
-        self.window = int(window)
-        self.fade = int(round(fade_s * self.fs))
+    Every spectrum is complex64 (single precision), the rfft of the float32 response on ``n_fft`` points.
+    """
+
+    fs: int
+    lead: int  # samples every response starts late (Responses.lead)
+    length: int  # response length, samples
+    window: int
+    fade: int
+    spectra: np.ndarray  # (C, H, S, 2, F) response spectra
+    references: np.ndarray  # (C, S, F) reference filter spectra (zero where the filter does not fit)
+    fits: np.ndarray  # (C, S) bool: the reference filter lies within the render's history
+    first_delay: np.ndarray  # (C, S) float32 seconds: earliest path at the head centre (no lead)
+    first_gain: np.ndarray  # (C, S) float32 broadband amplitude of the earliest path
+
+    @staticmethod
+    def fft_size(window: int, fade: int, length: int) -> int:
+        """Points of the mixing FFT: a fast length holding a window, its cross-fade and a response."""
+        return sfft.next_fast_len(window + fade + length - 1, real=True)
+
+    @classmethod
+    def compute(cls, responses: Responses, window: int, fade_s: float = FADE_S) -> ResponseSpectra:
+        """The spectra of every response in memory (for use without the store, see :mod:`hearnav.tables`)."""
+        window, fade = check_window(window), int(round(fade_s * responses.fs))
+        c, h, s = responses.early.shape[:3]
+        n_bins = cls.fft_size(window, fade, responses.length) // 2 + 1
+        out = [np.empty((c, h, s, 2, n_bins), np.complex64), np.empty((c, s, n_bins), np.complex64),
+               np.empty((c, s), bool)]
+        fill_spectra(responses, window, fade, *out)
+        return cls(responses.fs, responses.lead, responses.length, window, fade, *out,
+                   responses.first_delay, responses.first_gain)
+
+
+def check_window(window: int) -> int:
+    """A window length in samples, checked positive."""
+    if window <= 0:
+        raise ConfigError(f"window must be a positive number of samples (got {window})")
+    return int(window)
+
+
+def fill_spectra(responses: Responses, window: int, fade: int, spectra: np.ndarray, references: np.ndarray,
+                 fits: np.ndarray) -> None:
+    """Write every response spectrum (C, H, S, 2, F), reference filter spectrum (C, S, F) and fit flag (C, S) of
+    a scene's responses on the mixing FFT grid, one cell at a time (the outputs may be memory maps)."""
+    h, s = responses.early.shape[1:3]
+    n_fft = ResponseSpectra.fft_size(window, fade, responses.length)
+    for cell in range(responses.early.shape[0]):
+        resp = np.repeat(responses.tail[cell][None].astype(np.float32), h, axis=0)  # (H, S, 2, L)
+        resp[..., : responses.early.shape[-1]] += responses.early[cell].astype(np.float32)
+        spectra[cell] = sfft.rfft(resp, n_fft, axis=-1)
+        filters = np.zeros((s, n_fft), np.float32)
+        for spot in range(s):
+            first, taps = reference_filter(responses.first_delay[cell, spot], responses.first_gain[cell, spot],
+                                           responses.fs, responses.lead)
+            fits[cell, spot] = filter_fits(first, responses.length - 1)
+            if fits[cell, spot]:
+                filters[spot, first: first + FD_TAPS] = taps
+        references[cell] = sfft.rfft(filters, axis=-1)
+
+
+def reference_filter(first_delay: float, first_gain: float, fs: int, lead: int) -> tuple[int, np.ndarray]:
+    """First tap and (FD_TAPS,) taps of a reference filter: the earliest path's gain and delay plus the lead."""
+    first, taps = fd_taps(np.asarray(float(first_delay) * fs + lead))
+    return int(first), float(first_gain) * taps
+
+
+def filter_fits(first: int, history: int) -> bool:
+    """Whether a reference filter starting at tap ``first`` lies within a render's ``history``."""
+    return 0 <= first and first + FD_TAPS <= history + 1
+
+
+class ListeningWorld:
+    """A scene's response spectra ready for FFT mixing of windows (:class:`ResponseSpectra`)."""
+
+    def __init__(self, tables: ResponseSpectra):
+        self.tables = tables
+        self.fs = tables.fs
+        self.window = check_window(tables.window)
+        self.fade = tables.fade
         self.span = self.window + self.fade  # samples rendered per call
-        self.n_fft = sfft.next_fast_len(self.span + responses.length - 1, real=True)
-        self.history = responses.length - 1  # past samples each render needs
-        self._spectra: OrderedDict[tuple[int, int, int], np.ndarray] = OrderedDict()
-        self._max_spectra = max(16, spectra_bytes // (2 * (self.n_fft // 2 + 1) * 8))
-        self._table: np.ndarray | None = None
-        self._references: np.ndarray | None = None  # (C, S, F) reference filter spectra, with the table
-        self._reference_fits: np.ndarray | None = None  # (C, S) bool: the filter lies within the history
+        self.n_fft = ResponseSpectra.fft_size(self.window, self.fade, tables.length)
+        self.history = tables.length - 1  # past samples each render needs
+        self._spectra, self._references, self._fits = tables.spectra, tables.references, tables.fits
+
+    @classmethod
+    def of(cls, responses: Responses, window: int, fade_s: float = FADE_S) -> ListeningWorld:
+        """A world that computes its spectra in memory (:meth:`ResponseSpectra.compute`)."""
+        return cls(ResponseSpectra.compute(responses, window, fade_s))
 
     @property
     def warmup(self) -> int:
@@ -87,50 +156,9 @@ class ListeningWorld:
         """Dry samples each source needs for ``n_windows`` windows starting at :attr:`warmup`."""
         return self.warmup + n_windows * self.window + self.fade
 
-    def table_bytes(self, precision: str = "single") -> int:
-        """Memory that :meth:`precompute` needs for every response spectrum and reference filter spectrum, in
-        single or half precision."""
-        c, h, s = self.responses.early.shape[:3]
-        return c * s * (h * 2 + 1) * (self.n_fft // 2 + 1) * _BYTES_PER_BIN[_check_precision(precision)]
-
-    def precompute(self, precision: str = "single") -> None:
-        """Compute every response spectrum and reference filter spectrum once and keep them, so no step pays an
-        FFT for one.
-
-        ``"single"`` keeps complex64 spectra, ready to multiply; ``"half"`` keeps them in float16 at half the
-        memory, converted back on every use.
-        """
-        c, h, s = self.responses.early.shape[:3]
-        n_bins = self.n_fft // 2 + 1
-        half = _check_precision(precision) == "half"
-        table = _empty_spectra((c, h, s, 2, n_bins), half)
-        references = _empty_spectra((c, s, n_bins), half)
-        fits = np.zeros((c, s), bool)
-        for cell in range(c):
-            resp = np.repeat(self.responses.tail[cell][None].astype(np.float32), h, axis=0)  # (H, S, 2, L)
-            resp[..., : self.responses.early.shape[-1]] += self.responses.early[cell].astype(np.float32)
-            _store(table, cell, sfft.rfft(resp, self.n_fft, axis=-1))
-            filters = np.zeros((s, self.n_fft), np.float32)
-            for spot in range(s):
-                first, taps = self._reference_filter(cell, spot)
-                fits[cell, spot] = self._filter_fits(first)
-                if fits[cell, spot]:
-                    filters[spot, first: first + FD_TAPS] = taps
-            _store(references, cell, sfft.rfft(filters, axis=-1))
-        self._table, self._references, self._reference_fits = table, references, fits
-
     def spectrum(self, cell: int, heading: int, spot: int) -> np.ndarray:
-        """(2, F) complex64 spectrum of a response: from the precomputed table, else a bounded LRU cache."""
-        if self._table is not None:
-            return _complex(self._table[cell, heading, spot])
-        key = (cell, heading, spot)
-        spec = self._spectra.get(key)
-        if spec is None:
-            spec = sfft.rfft(self.responses.response(cell, heading, spot), self.n_fft, axis=-1).astype(np.complex64)
-            self._remember(key, spec)
-        else:
-            self._spectra.move_to_end(key)
-        return spec
+        """(2, F) complex64 spectrum of a response (read-only)."""
+        return self._spectra[cell, heading, spot]
 
     def segment_spectra(self, sources: list[Source], start: int) -> np.ndarray:
         """(R, F) spectra of each dry signal over [start - history, start + span); rows past the sources are zero.
@@ -177,39 +205,10 @@ class ListeningWorld:
             images = sfft.irfft(per_source, self.n_fft, axis=-1)[..., keep]
         return Window(start, rows[0:2], rows[3:5] if target_image else None, ref, images)
 
-    def _reference_filter(self, cell: int, spot: int) -> tuple[int, np.ndarray]:
-        """First tap and (FD_TAPS,) taps of the reference filter: the earliest path's gain and delay plus the lead."""
-        delay = float(self.responses.first_delay[cell, spot]) * self.fs + self.responses.lead
-        first, taps = fd_taps(np.asarray(delay))
-        return int(first), float(self.responses.first_gain[cell, spot]) * taps
-
     def reference_spectrum(self, cell: int, spot: int) -> np.ndarray | None:
-        """(F,) complex64 spectrum of the reference filter on the render's FFT grid (cached), or None when the
-        filter reaches past the render's history (the reference is then filtered in the time domain)."""
-        if self._table is not None:
-            return _complex(self._references[cell, spot]) if self._reference_fits[cell, spot] else None
-        key = (cell, -1, spot)
-        spec = self._spectra.get(key)
-        if spec is None:
-            first, taps = self._reference_filter(cell, spot)
-            if not self._filter_fits(first):
-                return None
-            h = np.zeros(self.n_fft, np.float32)
-            h[first : first + FD_TAPS] = taps
-            spec = sfft.rfft(h).astype(np.complex64)
-            self._remember(key, spec)
-        else:
-            self._spectra.move_to_end(key)
-        return spec
-
-    def _filter_fits(self, first: int) -> bool:
-        """Whether a reference filter starting at tap ``first`` lies within the render's history."""
-        return 0 <= first and first + FD_TAPS <= self.history + 1
-
-    def _remember(self, key: tuple[int, int, int], spec: np.ndarray) -> None:
-        self._spectra[key] = spec
-        if len(self._spectra) > self._max_spectra:
-            self._spectra.popitem(last=False)
+        """(F,) complex64 spectrum of the reference filter on the render's FFT grid, or None when the filter
+        reaches past the render's history (the reference is then filtered in the time domain)."""
+        return self._references[cell, spot] if self._fits[cell, spot] else None
 
     def reference(self, cell: int, source: Source, start: int) -> np.ndarray:
         """(span,) the source's dry signal delayed and scaled by its earliest path, with the responses' lead.
@@ -218,7 +217,8 @@ class ListeningWorld:
         time-invariant filter of the dry signal and continuous across windows. :meth:`render` applies it in
         the frequency domain; this is the time-domain form.
         """
-        first, taps = self._reference_filter(cell, source.spot)
+        t = self.tables
+        first, taps = reference_filter(t.first_delay[cell, source.spot], t.first_gain[cell, source.spot], t.fs, t.lead)
         lo = start - first - FD_TAPS + 1  # oldest dry sample needed
         x = np.zeros(self.span + FD_TAPS - 1, np.float64)
         a, b = max(lo, 0), min(start + self.span - first, len(source.signal))
@@ -230,30 +230,6 @@ class ListeningWorld:
 def _rows(n: int) -> int:
     """n rounded up to a multiple of ROW_BLOCK."""
     return -(-n // ROW_BLOCK) * ROW_BLOCK
-
-
-def _empty_spectra(shape: tuple[int, ...], half: bool) -> np.ndarray:
-    """An uninitialised table of complex spectra: complex64, or float16 (real, imaginary) pairs when ``half``."""
-    return np.empty((*shape, 2), np.float16) if half else np.empty(shape, np.complex64)
-
-
-def _store(table: np.ndarray, index: int, spectra: np.ndarray) -> None:
-    """Write complex spectra into row ``index`` of a table made by :func:`_empty_spectra`."""
-    if table.dtype == np.float16:
-        table[index] = spectra.astype(np.complex64).view(np.float32).reshape(table[index].shape)
-    else:
-        table[index] = spectra
-
-
-def _complex(entry: np.ndarray) -> np.ndarray:
-    """A table entry as complex64 spectra (a view in single precision, converted from half)."""
-    return entry if entry.dtype == np.complex64 else entry.astype(np.float32).view(np.complex64)[..., 0]
-
-
-def _check_precision(precision: str) -> str:
-    if precision not in _BYTES_PER_BIN:
-        raise ConfigError(f"precision must be one of {', '.join(map(repr, _BYTES_PER_BIN))} (got {precision!r})")
-    return precision
 
 
 def _ramp(n: int) -> np.ndarray:

@@ -36,7 +36,7 @@ def responses(fast_settings):
 
 @pytest.fixture
 def world(responses):
-    return ListeningWorld(responses, WINDOW)
+    return ListeningWorld.of(responses, WINDOW)
 
 
 def noise_sources(world: ListeningWorld, n_windows: int = N_WINDOWS, seed: int = 0) -> list[Source]:
@@ -200,7 +200,7 @@ def test_a_move_does_not_click(responses, world):
     boundary, inside = _boundary_and_inside_steps(world, sources)
     assert boundary <= 1.5 * inside
     # control: without the cross-fade the same move jumps (so the check above has teeth)
-    hard, hard_inside = _boundary_and_inside_steps(ListeningWorld(responses, WINDOW, fade_s=0.0), sources)
+    hard, hard_inside = _boundary_and_inside_steps(ListeningWorld.of(responses, WINDOW, fade_s=0.0), sources)
     assert hard > 3 * hard_inside
 
 
@@ -232,7 +232,7 @@ def test_peek_does_not_change_state(world):
 @pytest.mark.parametrize("window", [0, -160])
 def test_window_must_be_positive(responses, window):
     with pytest.raises(ConfigError, match=rf"window must be a positive number of samples \(got {window}\)"):
-        ListeningWorld(responses, window)
+        ListeningWorld.of(responses, window)
 
 
 @pytest.mark.parametrize("target", [2, -1])
@@ -250,40 +250,3 @@ def test_render_reference_equals_the_time_domain_filter(world, cell, spot):
     sources = noise_sources(world)
     win = world.render(cell, 1, sources, world.warmup, target=spot)
     np.testing.assert_allclose(win.reference, world.reference(cell, sources[spot], world.warmup), atol=2e-5)
-
-
-@pytest.mark.parametrize("precision, tol", [("single", 1e-6), ("half", 2e-3)])
-def test_precomputed_spectra_equal_the_direct_fft(responses, precision, tol):
-    # scipy.fft.rfft of the full response is the reference; half precision keeps about 3 significant digits.
-    lw = ListeningWorld(responses, WINDOW)
-    lw.precompute(precision)
-    assert lw.table_bytes("half") * 2 == lw.table_bytes("single")
-    want = np.fft.rfft(responses.response(GENERIC, 2, 1).astype(np.float64), lw.n_fft, axis=-1)
-    got = lw.spectrum(GENERIC, 2, 1)
-    assert got.dtype == np.complex64
-    assert np.abs(got - want).max() <= tol * np.abs(want).max()
-
-
-@pytest.mark.parametrize("precision, tol", [("single", 1e-6), ("half", 2e-3)])
-def test_precomputed_reference_spectra_equal_the_direct_fft(responses, precision, tol):
-    # scipy.fft.rfft of the reference filter on the render's grid (the on-demand path) is the reference; a filter
-    # that does not fit the history has no spectrum in either path, and the render then filters in time.
-    direct, lw = ListeningWorld(responses, WINDOW), ListeningWorld(responses, WINDOW)
-    lw.precompute(precision)
-    n_cells, _, n_spots = responses.early.shape[:3]
-    for cell in range(0, n_cells, max(1, n_cells // 12)):
-        for spot in range(n_spots):
-            want, got = direct.reference_spectrum(cell, spot), lw.reference_spectrum(cell, spot)
-            assert (want is None) == (got is None), (cell, spot)
-            if want is not None:
-                assert got.dtype == np.complex64
-                assert np.abs(got - want).max() <= tol * np.abs(want).max(), (cell, spot)
-    sources = noise_sources(lw)
-    win = lw.render(GENERIC, 1, sources, lw.warmup, target=1)
-    np.testing.assert_allclose(win.reference, lw.reference(GENERIC, sources[1], lw.warmup), atol=2e-5 if
-                               precision == "single" else 2e-3)
-
-
-def test_unknown_precision_is_an_error(world):
-    with pytest.raises(ConfigError, match=r"precision must be one of 'single', 'half' \(got 'double'\)"):
-        world.precompute("double")

@@ -3,14 +3,12 @@
 from __future__ import annotations
 
 import math
-from functools import lru_cache
 from typing import Any
 
 import gymnasium as gym
 import numpy as np
 from gymnasium import spaces
 
-from hearnav.acoustics import AcousticSettings
 from hearnav.env.config import EnvConfig, make_config
 from hearnav.env.episode import (
     EpisodePlan,
@@ -19,9 +17,7 @@ from hearnav.env.episode import (
     render_signals,
 )
 from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor
-from hearnav.env.patch import PoseViews
-from hearnav.env.poses import ScenePoses
-from hearnav.env.worlds import World, get_world, resolve_scenes
+from hearnav.env.worlds import World, get_views, get_world, resolve_scenes
 from hearnav.errors import ConfigError, HearnavError, SeparatorError
 from hearnav.listening import FADE_S, ListeningSession, Source, Window
 from hearnav.separation import SeparationContext, get_separator
@@ -68,22 +64,6 @@ def _scores(separator: str, reference: np.ndarray, *estimates: np.ndarray) -> li
         raise SeparatorError(f"separator {separator!r} must return a finite ({reference.shape[-1]},) estimate, "
                              f"got {int(np.sum(~np.isfinite(estimates[0])))} NaN or infinite samples")
     return scores
-
-
-@lru_cache(maxsize=32)
-def _scene_poses(scene: str, settings: AcousticSettings, window: int) -> ScenePoses:
-    """Every spot's distance, bearing and delay-and-sum weights from every pose of a scene's world."""
-    world = get_world(scene, settings, window)
-    return ScenePoses.build(world.grid, world.scene.spots_xy, settings.fs, SeparationContext.n_fft, settings.head_radius,
-                            settings.speed_of_sound)
-
-
-@lru_cache(maxsize=32)
-def _scene_views(scene: str, settings: AcousticSettings, window: int, size: int, fov_rad: float) -> PoseViews:
-    """The egocentric maps of every pose of a scene's world (see :func:`hearnav.env.worlds.get_world`)."""
-    world = get_world(scene, settings, window)
-    bearing = _scene_poses(scene, settings, window).bearing
-    return PoseViews(world.grid, world.scene.spots_xy, bearing, world.responses.line_of_sight, size, fov_rad)
 
 
 class HearNavEnv(gym.Env):
@@ -222,9 +202,8 @@ class HearNavEnv(gym.Env):
         self.steps = 0
         self._path = [(self.cell, self.heading)]
         self._spot_ids = [p.spot for p in plan.sources]
-        self._poses = _scene_poses(plan.scene, self.config.acoustics, self.window)  # computed on its first episode
-        self._maps: dict[tuple[int, int], np.ndarray] = {}
-        self._pose_views()  # the scene's static maps, computed on its first episode
+        self._poses = world.poses  # the scene's tables, memory-mapped from the store
+        self._views = get_views(plan.scene, self.config.acoustics, self.config.patch_size, self._fov)
         self._source_info = [p.info(world.scene) for p in plan.sources]
         self.si_sdr_db = None
         for _ in range(MAX_LEAD_IN + 1):  # a target that starts in a pause: listen on until it sounds
@@ -299,7 +278,7 @@ class HearNavEnv(gym.Env):
         image = window.target_image if (window is not None and self.separator.privileged) else None
         spot, poses = self._spot_ids[0], self._poses
         return SeparationContext(fs=self.fs, azimuth=float(poses.bearing[cell, heading, spot]), target_image=image,
-                                 known_stft=known_stft, known_das=poses.das[cell, heading, spot],
+                                 known_stft=known_stft, das=poses.das[cell, heading, spot],
                                  radius=self.config.acoustics.head_radius, c=self.config.acoustics.speed_of_sound)
 
     def score_window(self, window: Window, cell: int, heading: int,
@@ -342,16 +321,8 @@ class HearNavEnv(gym.Env):
         }
 
     def _map(self) -> np.ndarray:
-        """The egocentric map at the current pose (memoised per pose for the episode: its sources stay put)."""
-        pose = (self.cell, self.heading)
-        if pose not in self._maps:
-            self._maps[pose] = self._pose_views().patch(*pose, self._spot_ids)
-        return self._maps[pose].copy()
-
-    def _pose_views(self) -> PoseViews:
-        """The current scene's :class:`~hearnav.env.patch.PoseViews` (computed once per scene and process)."""
-        cfg = self.config
-        return _scene_views(self.plan.scene, cfg.acoustics, self.window, cfg.patch_size, self._fov)
+        """The egocentric map at the current pose."""
+        return self._views.patch(self.cell, self.heading, self._spot_ids)
 
     def _info(self) -> dict[str, Any]:
         grid = self.world.grid

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -12,6 +11,7 @@ from hearnav.env.config import EnvConfig
 from hearnav.errors import ConfigError, unknown_name
 from hearnav.scene.grid import Grid
 from hearnav.scene.model import Scene
+from hearnav.tables.sounds import dry_signal
 
 
 @dataclass(frozen=True)
@@ -97,15 +97,8 @@ def draw_episode(rng: np.random.Generator, cfg: EnvConfig, scene_name: str, scen
     return EpisodePlan(scene_name, tuple(plans), start, heading)
 
 
-@functools.lru_cache(maxsize=32)
-def _dry(category: str, pool: str, voice: int, take: int, n_samples: int, fs: int) -> np.ndarray:
-    """A generated dry sound, kept for the next episodes that use it (policies facing the same episode)."""
-    x = sounds.generate(category, pool, voice, take, n_samples / fs, fs)
-    x.flags.writeable = False
-    return x
-
-
 def render_signals(plan: EpisodePlan, n_samples: int, fs: int) -> list[np.ndarray]:
-    """Dry signals of every source, level-adjusted, ``n_samples`` long."""
-    return [(_dry(s.category, s.pool, s.voice, s.take, n_samples, fs) * np.float32(10 ** (s.level_db / 20)))
+    """Dry signals of every source, level-adjusted, ``n_samples`` long (each clip generated once into the store,
+    :func:`hearnav.tables.dry_signal`)."""
+    return [(dry_signal(s.category, s.pool, s.voice, s.take, n_samples, fs) * np.float32(10 ** (s.level_db / 20)))
             .astype(np.float32) for s in plan.sources]

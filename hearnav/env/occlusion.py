@@ -35,7 +35,7 @@ class OcclusionResult:
 
 def occlusion_moves(world: World, spot: int) -> list[tuple[int, int]]:
     """(occluded cell, neighbouring cell in line of sight) pairs for a target spot."""
-    los = world.responses.line_of_sight[:, spot]
+    los = world.poses.line_of_sight[:, spot]
     return [(c, n) for c in np.nonzero(~los)[0] for n in world.grid.neighbours(int(c)) if los[n]]
 
 
@@ -53,7 +53,7 @@ def check_scene(world: World, rng: np.random.Generator, separator: str, per_spot
     sep = get_separator(separator)
     lw = world.listening
     n = lw.signal_length(1)
-    fs = world.responses.fs
+    fs = lw.fs
     out = []
     for spot in range(len(world.scene.spots)):
         moves = occlusion_moves(world, spot)

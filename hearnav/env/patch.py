@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import functools
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -46,25 +47,36 @@ def occupancy_patch(grid: Grid, cell: int, heading: int, size: int) -> np.ndarra
     return out
 
 
+@dataclass(frozen=True)
 class PoseViews:
-    """Egocentric maps of every pose of a scene, computed once: each pose's occupancy and where each spot shows.
+    """Egocentric maps of every pose of a scene: each pose's occupancy and where each spot shows.
 
-    Parameters
+    Attributes
     ----------
-    grid : the scene's grid.
-    spots_xy : (n_spots, 2) spot positions (m).
-    bearing : (n_cells, n_headings, n_spots) each spot's bearing from each pose, radians in [-pi, pi)
-        (:func:`hearnav.env.poses.spot_directions`).
-    line_of_sight : (n_cells, n_spots) bool, a spot in line of sight of a cell centre.
-    size : patch side in cells (odd).
-    fov_rad : field of view, radians: a spot shows when in line of sight and within half of it of the heading.
+    occupancy : (n_cells, n_headings, size, size) float32 :func:`occupancy_patch` of every pose.
+    pixel : (n_cells, n_headings, n_spots) int64 flat patch index at which each spot shows, -1 where it does not.
     """
 
-    def __init__(self, grid: Grid, spots_xy: np.ndarray, bearing: np.ndarray, line_of_sight: np.ndarray, size: int,
-                 fov_rad: float):
-        self.size = size
-        self.occupancy = np.stack([np.stack([occupancy_patch(grid, c, h, size) for h in range(grid.n_headings)])
-                                   for c in range(grid.n_cells)])  # (C, H, P, P)
+    occupancy: np.ndarray
+    pixel: np.ndarray
+
+    @classmethod
+    def build(cls, grid: Grid, spots_xy: np.ndarray, bearing: np.ndarray, line_of_sight: np.ndarray, size: int,
+              fov_rad: float) -> PoseViews:
+        """The maps of a scene.
+
+        Parameters
+        ----------
+        grid : the scene's grid.
+        spots_xy : (n_spots, 2) spot positions (m).
+        bearing : (n_cells, n_headings, n_spots) each spot's bearing from each pose, radians in [-pi, pi)
+            (:func:`hearnav.env.poses.spot_directions`).
+        line_of_sight : (n_cells, n_spots) bool, a spot in line of sight of a cell centre.
+        size : patch side in cells (odd).
+        fov_rad : field of view, radians: a spot shows when in line of sight and within half of it of the heading.
+        """
+        occupancy = np.stack([np.stack([occupancy_patch(grid, c, h, size) for h in range(grid.n_headings)])
+                              for c in range(grid.n_cells)])  # (C, H, P, P)
         angles = 2.0 * np.pi * np.arange(grid.n_headings) / grid.n_headings  # (H,)
         seen = line_of_sight[:, None, :] & (np.abs(bearing) <= fov_rad / 2 + 1e-9)
         cells = (np.asarray(spots_xy, float)[None] - grid.centers[:, None]) / grid.spacing  # (C, S, 2)
@@ -74,11 +86,16 @@ class PoseViews:
         half = size // 2
         row, col = np.rint(half - ahead).astype(np.int64), np.rint(half - left).astype(np.int64)
         inside = seen & (row >= 0) & (row < size) & (col >= 0) & (col < size)
-        self.pixel = np.where(inside, row * size + col, -1)  # (C, H, S): flat patch index, -1 = not shown
+        return cls(occupancy, np.where(inside, row * size + col, -1))
+
+    @property
+    def size(self) -> int:
+        """Patch side in cells."""
+        return int(self.occupancy.shape[-1])
 
     def patch(self, cell: int, heading: int, spots: list[int]) -> np.ndarray:
-        """(2, size, size) float32: channel 0 the pose's :func:`occupancy_patch`, channel 1 marks the given spots
-        the pose shows."""
+        """(2, size, size) float32, a new array: channel 0 the pose's :func:`occupancy_patch`, channel 1 marks the
+        given spots the pose shows."""
         out = np.zeros((2, self.size, self.size), np.float32)
         out[0] = self.occupancy[cell, heading]
         pixel = self.pixel[cell, heading, spots]

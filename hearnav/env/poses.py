@@ -1,8 +1,6 @@
-"""Where each spot of a scene lies from every pose, and the delay-and-sum weights towards it, computed once."""
+"""Where each spot of a scene lies from every pose, and the delay-and-sum weights towards it (for the store)."""
 
 from __future__ import annotations
-
-from dataclasses import dataclass
 
 import numpy as np
 
@@ -30,25 +28,16 @@ def spot_directions(grid: Grid, spots_xy: np.ndarray) -> tuple[np.ndarray, np.nd
     return np.hypot(d[..., 0], d[..., 1]), bearing
 
 
-@dataclass(frozen=True)
-class ScenePoses:
-    """Every spot's distance (C, S) and bearing (C, H, S) from every pose of a scene, and the conjugate
-    delay-and-sum weights (C, H, S, 2, F) towards it (:func:`hearnav.physics.steering.das_conjugates`).
-    All read-only."""
+def fill_das(bearing: np.ndarray, fs: float, n_fft: int, radius: float, c: float, out: np.ndarray) -> None:
+    """Write the conjugate delay-and-sum weights towards every bearing (:func:`das_conjugates`) on the bins of an
+    ``n_fft`` STFT.
 
-    distance: np.ndarray
-    bearing: np.ndarray
-    das: np.ndarray
-
-    @classmethod
-    def build(cls, grid: Grid, spots_xy: np.ndarray, fs: float, n_fft: int, radius: float, c: float) -> ScenePoses:
-        """The tables of a scene, its weights on the bins of an ``n_fft`` STFT (one cell at a time, to bound the
-        working memory)."""
-        distance, bearing = spot_directions(grid, spots_xy)
-        das = np.empty((*bearing.shape, 2, n_fft // 2 + 1), np.complex64)
-        freqs = stft_freqs(n_fft, fs)
-        for cell in range(grid.n_cells):
-            das[cell] = das_conjugates(bearing[cell], freqs, radius, c)
-        for table in (distance, bearing, das):
-            table.flags.writeable = False
-        return cls(distance, bearing, das)
+    Parameters
+    ----------
+    bearing : (C, H, S) radians, counter-clockwise from the heading (:func:`spot_directions`).
+    fs : sampling rate, Hz. n_fft : STFT frame. radius, c : head radius (m) and speed of sound (m/s).
+    out : (C, H, S, 2, n_fft // 2 + 1) complex64, filled one cell at a time (to bound the working memory).
+    """
+    freqs = stft_freqs(n_fft, fs)
+    for cell in range(bearing.shape[0]):
+        out[cell] = das_conjugates(bearing[cell], freqs, radius, c)

@@ -1,66 +1,40 @@
-"""Scenes, grids and listening worlds the environment uses, built once per process and reused."""
+"""Worlds the environment uses: thin views of a scene's tables in the store (:mod:`hearnav.tables`)."""
 
 from __future__ import annotations
 
-import os
 from dataclasses import dataclass
-from functools import lru_cache
 
-from hearnav.acoustics import AcousticSettings, Responses, load_or_build
+from hearnav.acoustics import AcousticSettings
+from hearnav.env.patch import PoseViews
 from hearnav.errors import ConfigError
 from hearnav.listening import ListeningWorld
-from hearnav.scene.grid import Grid, build_grid
 from hearnav.scene.format import SPLITS
+from hearnav.scene.grid import Grid
 from hearnav.scene.library import load_named, scene_names
 from hearnav.scene.model import Scene
-
+from hearnav.tables import scene as scene_tables
 
 
 @dataclass(frozen=True)
 class World:
-    """A scene with its grid, responses and mixing engine."""
+    """A scene with its grid, its pose tables and its mixing engine, all read-only views of the store."""
 
     scene: Scene
     grid: Grid
-    responses: Responses
+    poses: scene_tables.PoseTables
     listening: ListeningWorld
 
 
-#: Memory (bytes) this process may spend on precomputed response spectra, over all worlds
-#: (HEARNAV_SPECTRA_MB overrides). A world's spectra are kept in single precision when they fit, else in half
-#: precision; worlds beyond the budget compute spectra on demand through a bounded cache.
-DEFAULT_SPECTRA_MB = 4096
-_spent = 0
-
-
-def spectra_budget() -> int:
-    """Bytes of the spectra budget: HEARNAV_SPECTRA_MB megabytes (default 4096)."""
-    raw = os.environ.get("HEARNAV_SPECTRA_MB", str(DEFAULT_SPECTRA_MB))
-    try:
-        mb = float(raw)
-    except ValueError:
-        mb = -1.0
-    if not mb >= 0 or mb == float("inf"):
-        raise ConfigError(f"HEARNAV_SPECTRA_MB must be a number of megabytes >= 0 (got {raw!r}); e.g. "
-                          f"HEARNAV_SPECTRA_MB=2048, or unset it for {DEFAULT_SPECTRA_MB}")
-    return int(mb * 2**20)
-
-
-@lru_cache(maxsize=32)
 def get_world(name: str, settings: AcousticSettings, window: int) -> World:
-    """The world of a named scene (built into the response cache on first use)."""
-    global _spent
+    """The world of a named scene (its tables are built into the store on first use, then memory-mapped)."""
     scene = load_named(name)
-    grid = build_grid(scene, settings.n_headings)
-    responses = load_or_build(scene, settings, grid)
-    listening = ListeningWorld(responses, window)
-    budget = spectra_budget()
-    for precision in ("single", "half"):  # single precision is faster to mix; half fits twice as many worlds
-        if _spent + listening.table_bytes(precision) <= budget:
-            listening.precompute(precision)
-            _spent += listening.table_bytes(precision)
-            break
-    return World(scene, grid, responses, listening)
+    poses = scene_tables.pose_tables(scene, settings)
+    return World(scene, poses.grid, poses, ListeningWorld(scene_tables.response_spectra(scene, settings, window)))
+
+
+def get_views(name: str, settings: AcousticSettings, size: int, fov_rad: float) -> PoseViews:
+    """The egocentric maps of every pose of a named scene (:func:`hearnav.tables.pose_views`)."""
+    return scene_tables.pose_views(load_named(name), settings, size, fov_rad)
 
 
 def resolve_scenes(scenes: str | list[str], procedural_pool: int) -> tuple[str, ...]:

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from functools import lru_cache
 
 import numpy as np
 
@@ -39,9 +38,12 @@ class SeparationContext:
     known_stft : optional ``(signal, spectrum)`` pair the caller has already transformed with these STFT
         settings (the environment's features need the mixture's STFT too); :meth:`stft` returns the spectrum
         for that very array instead of computing it again. The spectrum must be read-only.
-    known_das : optional read-only (2, F) complex64 :meth:`das_conjugate` weights for this azimuth that the
-        caller has already computed with :func:`das_conjugates` (the environment keeps them for every pose of a
-        scene); :meth:`das_conjugate` returns them instead of computing them.
+    das : read-only (2, F) complex64 conjugate delay-and-sum weights towards ``azimuth`` on the STFT bins
+        (:func:`hearnav.physics.steering.das_conjugates`). The environment gives those of its scene's tables;
+        when none are given the context computes them from the head model.
+
+    A separator takes the target's steering vector and delay-and-sum weights from :meth:`steering` and
+    :meth:`das_conjugate`, never from anywhere else.
     """
 
     fs: float
@@ -52,8 +54,9 @@ class SeparationContext:
     radius: float = HEAD_RADIUS
     c: float = 343.0
     known_stft: tuple[np.ndarray, np.ndarray] | None = field(default=None, compare=False, repr=False)
-    known_das: np.ndarray | None = field(default=None, compare=False, repr=False)
+    das: np.ndarray | None = field(default=None, compare=False, repr=False)
     _synthesised: list = field(default_factory=list, init=False, compare=False, repr=False)
+    _steering: list = field(default_factory=list, init=False, compare=False, repr=False)
 
     def __post_init__(self) -> None:
         for name, value in (("fs", self.fs), ("azimuth", self.azimuth), ("radius", self.radius), ("c", self.c)):
@@ -70,8 +73,12 @@ class SeparationContext:
                 raise ConfigError(f"SeparationContext.target_image must be a (2, n) array, got shape {shape}")
         if self.known_stft is not None:
             self._check_known_stft()
-        if self.known_das is not None:
-            self._check_known_das()
+        if self.das is None:
+            w = das_conjugates(np.array([float(self.azimuth)]), self._freqs(), float(self.radius), float(self.c))[0]
+            w.flags.writeable = False
+            object.__setattr__(self, "das", w)
+        else:
+            self._check_das()
 
     def _check_known_stft(self) -> None:
         signal, spec = self.known_stft
@@ -80,12 +87,12 @@ class SeparationContext:
             raise ConfigError(f"SeparationContext.known_stft must pair a signal with its read-only STFT of shape "
                               f"{want}, got shape {spec.shape}{' (writeable)' if spec.flags.writeable else ''}")
 
-    def _check_known_das(self) -> None:
-        w = self.known_das
+    def _check_das(self) -> None:
+        w = self.das
         want = (2, self.n_fft // 2 + 1)
         if not isinstance(w, np.ndarray) or w.shape != want or w.dtype != np.complex64 or w.flags.writeable:
             dtype = w.dtype if isinstance(w, np.ndarray) else type(w).__name__
-            raise ConfigError(f"SeparationContext.known_das must be read-only complex64 weights of shape {want} "
+            raise ConfigError(f"SeparationContext.das must be read-only complex64 weights of shape {want} "
                               f"(from das_conjugates), got {dtype} of shape {np.shape(w)}"
                               f"{' (writeable)' if isinstance(w, np.ndarray) and w.flags.writeable else ''}")
 
@@ -113,30 +120,19 @@ class SeparationContext:
         return self._synthesised[1] if self._synthesised and self._synthesised[0] is signal else None
 
     def das_conjugate(self) -> np.ndarray:
-        """(2, F) conjugate delay-and-sum weights w^H, w = d / (d^H d) of :meth:`steering`, complex64 (read-only,
-        cached; ``known_das`` when given)."""
-        if self.known_das is not None:
-            return self.known_das
-        return _das_conjugate(float(self.azimuth), float(self.fs), int(self.n_fft), float(self.radius),
-                              float(self.c))
+        """(2, F) conjugate delay-and-sum weights w^H, w = d / (d^H d) of :meth:`steering`, complex64, read-only:
+        :attr:`das`."""
+        return self.das
 
     def steering(self) -> np.ndarray:
-        """(F, 2) steering vector of the target direction on the STFT bins (read-only, cached)."""
-        return _steering(float(self.azimuth), float(self.fs), int(self.n_fft), float(self.radius), float(self.c))
+        """(F, 2) steering vector of the target direction on the STFT bins (read-only; computed on first use from
+        the head model, :func:`hearnav.physics.steering.steering_vector`)."""
+        if not self._steering:
+            d = np.ascontiguousarray(steering_vector(float(self.azimuth), self._freqs(), float(self.radius),
+                                                     float(self.c)))
+            d.flags.writeable = False
+            self._steering.append(d)
+        return self._steering[0]
 
-
-@lru_cache(maxsize=4096)
-def _steering(azimuth: float, fs: float, n_fft: int, radius: float, c: float) -> np.ndarray:
-    """:func:`hearnav.physics.steering.steering_vector` on the STFT bins, read-only (every pose of an episode asks
-    for a new azimuth)."""
-    d = np.ascontiguousarray(steering_vector(azimuth, stft_freqs(n_fft, fs), radius, c))
-    d.flags.writeable = False
-    return d
-
-
-@lru_cache(maxsize=4096)
-def _das_conjugate(azimuth: float, fs: float, n_fft: int, radius: float, c: float) -> np.ndarray:
-    """:meth:`SeparationContext.das_conjugate`: :func:`das_conjugates` of one azimuth, read-only."""
-    w = das_conjugates(np.array([azimuth]), stft_freqs(n_fft, fs), radius, c)[0]
-    w.flags.writeable = False
-    return w
+    def _freqs(self) -> np.ndarray:
+        return stft_freqs(int(self.n_fft), float(self.fs))

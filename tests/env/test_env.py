@@ -233,30 +233,6 @@ def test_a_separator_without_the_context_synthesis_gets_levels_of_its_estimate(m
         unregister_separator("left-ear-test")
 
 
-@pytest.mark.parametrize("value", ["lots", "-5", "nan"])
-def test_bad_spectra_budget_is_a_clear_error(monkeypatch, value):
-    from hearnav.env.worlds import spectra_budget
-
-    monkeypatch.setenv("HEARNAV_SPECTRA_MB", value)
-    with pytest.raises(ConfigError, match=rf"HEARNAV_SPECTRA_MB must be a number of megabytes >= 0 \(got '{value}'\)"):
-        spectra_budget()
-
-
-def test_spectra_budget_picks_single_then_half_precision(make_env, monkeypatch):
-    from hearnav.env import worlds
-
-    env = make_env()
-    env.reset(seed=0)
-    need = env.world.listening.table_bytes("half")
-    for mb, dtype in ((need * 2.5 / 2**20, np.complex64), (need * 1.5 / 2**20, np.float16), (0, None)):
-        monkeypatch.setenv("HEARNAV_SPECTRA_MB", str(mb))
-        monkeypatch.setattr(worlds, "_spent", 0)
-        worlds.get_world.cache_clear()
-        table = worlds.get_world(env.plan.scene, env.config.acoustics, env.window).listening._table
-        assert (table is None) if dtype is None else (table.dtype == dtype)
-    worlds.get_world.cache_clear()
-
-
 @pytest.mark.parametrize("bad", [np.nan, np.inf])
 def test_a_separator_returning_non_finite_samples_is_an_error(make_env, bad):
     @register_separator("broken-test")

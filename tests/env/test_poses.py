@@ -1,4 +1,4 @@
-"""The per-scene pose tables against direct per-pose computations.
+"""The pose tables' computations against direct per-pose computations.
 
 References: the bearing of a point is atan2 of its offset minus the heading, wrapped to [-pi, pi) (plane
 geometry, common practice); delay-and-sum weights w = d / (d^H d) of the steering vector d (Van Trees,
@@ -12,7 +12,7 @@ import math
 import numpy as np
 import pytest
 
-from hearnav.env.poses import ScenePoses, spot_directions
+from hearnav.env.poses import fill_das, spot_directions
 from hearnav.separation import SeparationContext, steering_vector
 from hearnav.separation.beamform import das_weights
 from hearnav.physics.steering import das_conjugates
@@ -43,18 +43,14 @@ def test_spot_directions_equal_the_plane_geometry_of_each_pose(world):
     assert (bearing >= -math.pi).all() and (bearing < math.pi).all()
 
 
-def test_scene_das_table_is_the_delay_and_sum_weights_of_each_bearing(world):
-    grid = world.world.grid
-    spots = np.array([s.position[:2] for s in world.world.scene.spots])
-    poses = ScenePoses.build(grid, spots, FS, 512, 0.0875, 343.0)
-    assert poses.das.shape == (grid.n_cells, grid.n_headings, len(spots), 2, 257)
-    assert not (poses.das.flags.writeable or poses.bearing.flags.writeable or poses.distance.flags.writeable)
-    for cell, heading, spot in [(0, 0, 0), (3, 1, 2), (grid.n_cells - 1, grid.n_headings - 1, len(spots) - 1)]:
-        az = poses.bearing[cell, heading, spot]
-        d = steering_vector(az, stft_freqs(512, FS), radius=0.0875, c=343.0)  # (F, 2)
-        wh = poses.das[cell, heading, spot]
-        np.testing.assert_allclose(wh, np.conj(das_weights(d)).T, rtol=1e-6, atol=1e-7)
-        np.testing.assert_allclose(np.sum(wh * d.T, axis=0), 1.0, atol=1e-6)  # w^H d = 1
+def test_filled_weights_are_the_delay_and_sum_weights_of_each_bearing(world):
+    bearing = np.random.default_rng(1).uniform(-np.pi, np.pi, (3, 4, 2))
+    das = np.empty((3, 4, 2, 2, 257), np.complex64)
+    fill_das(bearing, FS, 512, 0.0875, 343.0, das)
+    for idx in [(0, 0, 0), (1, 3, 1), (2, 2, 0)]:
+        d = steering_vector(bearing[idx], stft_freqs(512, FS), radius=0.0875, c=343.0)  # (F, 2)
+        np.testing.assert_allclose(das[idx], np.conj(das_weights(d)).T, rtol=1e-6, atol=1e-7)  # w = d / (d^H d)
+        np.testing.assert_allclose(np.sum(das[idx] * d.T, axis=0), 1.0, atol=1e-6)  # w^H d = 1
 
 
 def test_vectorised_weights_equal_the_contexts_own(world):
@@ -67,9 +63,10 @@ def test_vectorised_weights_equal_the_contexts_own(world):
 
 def test_the_env_hands_the_separator_the_weights_of_its_bearing(world):
     # The tables are a cache: the weights the env passes must be those the context computes for the bearing.
+    spot = world.plan.sources[0].spot
     for cell, heading in [(0, 0), (5, 2), (world.world.grid.n_cells - 1, 3)]:
         ctx = world.context(cell, heading)
-        assert ctx.known_das is not None
+        assert np.shares_memory(ctx.das, world.world.poses.das[cell, heading, spot])  # the store's row, not a copy
         own = SeparationContext(FS, ctx.azimuth, radius=ctx.radius, c=ctx.c).das_conjugate()
         np.testing.assert_array_equal(ctx.das_conjugate(), own)
         assert ctx.azimuth == world.target_bearing(cell, heading)[1]

@@ -233,14 +233,14 @@ def test_built_ins_synthesise_through_the_context(name):
     np.testing.assert_allclose(istft(spec, 4000), est, atol=1e-5)
 
 
-def test_context_returns_known_das_weights_and_checks_them():
+def test_context_returns_given_das_weights_and_checks_them():
     w = SeparationContext(fs=16000, azimuth=0.3).das_conjugate()
-    assert SeparationContext(fs=16000, azimuth=0.3, known_das=w).das_conjugate() is w
-    with pytest.raises(ConfigError, match=r"^SeparationContext.known_das must be read-only complex64 weights of shape "
+    assert SeparationContext(fs=16000, azimuth=0.3, das=w).das_conjugate() is w
+    with pytest.raises(ConfigError, match=r"^SeparationContext.das must be read-only complex64 weights of shape "
                                           r"\(2, 257\) \(from das_conjugates\), got complex64 of shape \(2, 257\) "
                                           r"\(writeable\)$"):
-        SeparationContext(fs=16000, azimuth=0.3, known_das=w.copy())
+        SeparationContext(fs=16000, azimuth=0.3, das=w.copy())
     with pytest.raises(ConfigError, match=r"got complex128 of shape \(257, 2\) \(writeable\)$"):
-        SeparationContext(fs=16000, azimuth=0.3, known_das=np.zeros((257, 2), complex))
+        SeparationContext(fs=16000, azimuth=0.3, das=np.zeros((257, 2), complex))
     with pytest.raises(ConfigError, match=r"got list of shape \(2, 257\)$"):
-        SeparationContext(fs=16000, azimuth=0.3, known_das=[[0j] * 257] * 2)
+        SeparationContext(fs=16000, azimuth=0.3, das=[[0j] * 257] * 2)
