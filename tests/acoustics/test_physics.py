@@ -5,7 +5,8 @@ import pytest
 import scipy.fft as sfft
 from scipy import signal
 
-from hearnav.acoustics import decay, room
+from hearnav.acoustics import room
+from hearnav.physics import reverberation as decay
 from hearnav.acoustics.responses import build_responses
 from hearnav.acoustics.settings import RESPONSE_LEAD, AcousticSettings
 from hearnav.scene.grid import build_grid
