@@ -31,7 +31,7 @@ def main() -> None:
     from hearnav.acoustics import AcousticSettings, room
     from hearnav.acoustics import cache as cache_mod
     from hearnav.acoustics import responses as R
-    from hearnav.acoustics.render import PathSet, early_direct, early_fast
+    from hearnav.acoustics.synthesis import PathSet, early_direct, early_fast
     from hearnav.acoustics.settings import RESPONSE_LEAD
     from hearnav.scene.grid import build_grid
     from hearnav.scene.library import DEFAULT_SCENE, load_named

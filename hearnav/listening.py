@@ -15,13 +15,13 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.fft as sfft
 
-from hearnav.acoustics.render import FD_TAPS, fd_taps
+from hearnav.acoustics.synthesis import FD_TAPS, fd_taps
 from hearnav.acoustics.responses import Responses
 from hearnav.errors import ConfigError
 
 #: Default cross-fade after a move, in seconds.
 FADE_S = 0.02
-#: Rows pocketfft transforms together (float32 vector width): the render pads its row counts to multiples.
+#: Rows pocketfft transforms together (float32 vector width): mixing pads its row counts to multiples.
 ROW_BLOCK = 4
 
 
@@ -69,7 +69,7 @@ class ResponseSpectra:
     fade: int
     spectra: np.ndarray  # (C, H, S, 2, F) response spectra
     references: np.ndarray  # (C, S, F) reference filter spectra (zero where the filter does not fit)
-    fits: np.ndarray  # (C, S) bool: the reference filter lies within the render's history
+    fits: np.ndarray  # (C, S) bool: the reference filter lies within the mix's history
     first_delay: np.ndarray  # (C, S) float32 seconds: earliest path at the head centre (no lead)
     first_gain: np.ndarray  # (C, S) float32 broadband amplitude of the earliest path
 
@@ -125,7 +125,7 @@ def reference_filter(first_delay: float, first_gain: float, fs: int, lead: int) 
 
 
 def filter_fits(first: int, history: int) -> bool:
-    """Whether a reference filter starting at tap ``first`` lies within a render's ``history``."""
+    """Whether a reference filter starting at tap ``first`` lies within a mix's ``history``."""
     return 0 <= first and first + FD_TAPS <= history + 1
 
 
@@ -137,9 +137,9 @@ class ListeningWorld:
         self.fs = tables.fs
         self.window = check_window(tables.window)
         self.fade = tables.fade
-        self.span = self.window + self.fade  # samples rendered per call
+        self.span = self.window + self.fade  # samples mixed per call
         self.n_fft = ResponseSpectra.fft_size(self.window, self.fade, tables.length)
-        self.history = tables.length - 1  # past samples each render needs
+        self.history = tables.length - 1  # past samples each mix needs
         self._spectra, self._references, self._fits = tables.spectra, tables.references, tables.fits
 
     @classmethod
@@ -174,7 +174,7 @@ class ListeningWorld:
                 segs[i, a - lo : b - lo] = src.signal[a:b]
         return sfft.rfft(segs, axis=-1)
 
-    def render(self, cell: int, heading: int, sources: list[Source], start: int, target: int = 0,
+    def mix(self, cell: int, heading: int, sources: list[Source], start: int, target: int = 0,
                all_images: bool = False, seg: np.ndarray | None = None, target_image: bool = True) -> Window:
         """The span [start, start + window + fade) heard at a pose, with no cross-fade.
 
@@ -206,15 +206,15 @@ class ListeningWorld:
         return Window(start, rows[0:2], rows[3:5] if target_image else None, ref, images)
 
     def reference_spectrum(self, cell: int, spot: int) -> np.ndarray | None:
-        """(F,) complex64 spectrum of the reference filter on the render's FFT grid, or None when the filter
-        reaches past the render's history (the reference is then filtered in the time domain)."""
+        """(F,) complex64 spectrum of the reference filter on the mixing FFT grid, or None when the filter
+        reaches past the mix's history (the reference is then filtered in the time domain)."""
         return self._references[cell, spot] if self._fits[cell, spot] else None
 
     def reference(self, cell: int, source: Source, start: int) -> np.ndarray:
         """(span,) the source's dry signal delayed and scaled by its earliest path, with the responses' lead.
 
         The fractional delay uses the same windowed-sinc filter as the responses, so the reference is one
-        time-invariant filter of the dry signal and continuous across windows. :meth:`render` applies it in
+        time-invariant filter of the dry signal and continuous across windows. :meth:`mix` applies it in
         the frequency domain; this is the time-domain form.
         """
         t = self.tables
@@ -258,14 +258,14 @@ class ListeningSession:
 
     def peek(self, cell: int, heading: int) -> Window:
         """The current window at any pose, without moving or advancing time (no cross-fade)."""
-        win = self.world.render(cell, heading, self.sources, self.time, self.target, self.all_images,
+        win = self.world.mix(cell, heading, self.sources, self.time, self.target, self.all_images,
                                 self._current_seg(), self.target_image)
         return win.part(0, self.world.window)
 
     def listen(self, cell: int, heading: int) -> Window:
         """The current window at a pose, cross-faded from the previous pose; then advance one window."""
         w = self.world
-        span = w.render(cell, heading, self.sources, self.time, self.target, self.all_images, self._current_seg(),
+        span = w.mix(cell, heading, self.sources, self.time, self.target, self.all_images, self._current_seg(),
                         self.target_image)
         if self._tail is not None and w.fade:
             span = _blend(self._tail, span, self._fade_out)
@@ -277,7 +277,7 @@ class ListeningSession:
 
 
 def _blend(old: Window, new: Window, fade_out: np.ndarray) -> Window:
-    """Cross-fade the first len(fade_out) samples of ``new`` from ``old``, in place (``new`` is a fresh render):
+    """Cross-fade the first len(fade_out) samples of ``new`` from ``old``, in place (``new`` is freshly mixed):
     old * fade_out + new * (1 - fade_out)."""
     m = len(fade_out)
     for v, o in ((new.mixture, old.mixture), (new.reference, old.reference), (new.target_image, old.target_image),

@@ -172,8 +172,8 @@ def test_a_move_cross_fades_from_the_old_pose(world):
     session.listen(NEAR_A, 0)
     start = session.time
     moved = session.listen(FAR, 2)
-    old = world.render(NEAR_A, 0, sources, start, 0, all_images=True)
-    new = world.render(FAR, 2, sources, start, 0, all_images=True)
+    old = world.mix(NEAR_A, 0, sources, start, 0, all_images=True)
+    new = world.mix(FAR, 2, sources, start, 0, all_images=True)
     fade = world.fade
     assert fade == round(0.02 * FS)
     ramp = raised_cosine(fade)
@@ -241,12 +241,12 @@ def test_target_must_index_a_source(world, target):
         ListeningSession(world, noise_sources(world, 1), target=target)
 
 
-# --- the render's frequency-domain paths ---------------------------------------------------------------
+# --- the mix's frequency-domain paths ---------------------------------------------------------------
 
 
 @pytest.mark.parametrize("cell, spot", [(NEAR_A, 0), (GENERIC, 1), (FAR, 0)])
-def test_render_reference_equals_the_time_domain_filter(world, cell, spot):
-    # The reference filter applied by FFT in the render must equal direct convolution (numpy.convolve).
+def test_mixed_reference_equals_the_time_domain_filter(world, cell, spot):
+    # The reference filter applied by FFT in the mix must equal direct convolution (numpy.convolve).
     sources = noise_sources(world)
-    win = world.render(cell, 1, sources, world.warmup, target=spot)
+    win = world.mix(cell, 1, sources, world.warmup, target=spot)
     np.testing.assert_allclose(win.reference, world.reference(cell, sources[spot], world.warmup), atol=2e-5)

@@ -10,7 +10,7 @@ import numpy as np
 from hearnav.acoustics import room
 from hearnav.physics import reverberation
 from hearnav.acoustics.probes import choose_probes
-from hearnav.acoustics.render import FD_TAPS, PathSet, early_fast
+from hearnav.acoustics.synthesis import FD_TAPS, PathSet, early_fast
 from hearnav.acoustics.settings import RESPONSE_LEAD, AcousticSettings
 from hearnav.acoustics.tail import binaural_tails, smooth_histogram
 from hearnav.scene.grid import Grid

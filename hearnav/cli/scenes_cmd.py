@@ -37,7 +37,7 @@ def register(sub) -> None:
     bd.set_defaults(run=run_build)
 
 
-def resolve_scene(name: str):
+def scene_argument(name: str):
     """A scene from a bundled name, a generator name (gen-<seed>) or a YAML path."""
     from hearnav.scene import load_scene
     from hearnav.scene.library import load_named
@@ -97,7 +97,7 @@ def run_show(args) -> int:
     from hearnav.plots.plan import save_plan
     from hearnav.scene.grid import build_grid
 
-    scene = resolve_scene(args.name)
+    scene = scene_argument(args.name)
     out = save_plan(scene, build_grid(scene), args.out)
     print(f"wrote {out}")
     return 0
@@ -113,7 +113,7 @@ def run_build(args) -> int:
     names = list(args.names) or (scene_names(args.split) if args.split else [DEFAULT_SCENE])
     settings = AcousticSettings(n_threads=max(1, args.threads))
     for name in names:
-        scene = resolve_scene(name)
+        scene = scene_argument(name)
         grid = build_grid(scene, settings.n_headings)
         t0 = time.perf_counter()
         with tqdm(total=grid.n_cells, desc=f"{scene.name}", unit="cell", file=sys.stderr,

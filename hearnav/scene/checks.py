@@ -57,7 +57,7 @@ def closed_polygon(points: list[list[float]], path: str, problems: Problems) -> 
     return counter_clockwise(pts)
 
 
-def resolve_material(spec, path: str, problems: Problems) -> mats.Material | None:
+def checked_material(spec, path: str, problems: Problems) -> mats.Material | None:
     """A material from a table name, a named entry or explicit coefficients."""
     if isinstance(spec, fmt.CustomMaterial):
         return mats.Material("custom", tuple(spec.absorption), mats.scattering_bands(spec.scattering))
@@ -117,7 +117,7 @@ def _check_unique(kind: str, name: str, path: str, names: set[str], problems: Pr
     names.add(name)
 
 
-def _resolve_obstacles(spec: fmt.SceneSpec, room: shapely.Polygon | None, problems: Problems) -> list[SolidObstacle]:
+def _checked_obstacles(spec: fmt.SceneSpec, room: shapely.Polygon | None, problems: Problems) -> list[SolidObstacle]:
     solids: list[SolidObstacle] = []
     shapes: list[tuple[str, shapely.Polygon]] = []
     names: set[str] = set()
@@ -125,7 +125,7 @@ def _resolve_obstacles(spec: fmt.SceneSpec, room: shapely.Polygon | None, proble
         path = f"obstacles[{k}]"
         _check_unique("obstacle", ob.name, path, names, problems)
         poly = obstacle_polygon(ob, path, problems)
-        material = resolve_material(ob.material, f"{path}.material", problems)
+        material = checked_material(ob.material, f"{path}.material", problems)
         full = ob.height == "ceiling"
         height = spec.ceiling_height if full else float(ob.height)
         if not full and height <= 0:
@@ -174,7 +174,7 @@ def _spot_clearance(xyz: np.ndarray, room: shapely.Polygon, solids: list[SolidOb
     return float(d)
 
 
-def _resolve_spots(spec: fmt.SceneSpec, room: shapely.Polygon | None, solids: list[SolidObstacle],
+def _checked_spots(spec: fmt.SceneSpec, room: shapely.Polygon | None, solids: list[SolidObstacle],
                    problems: Problems) -> list[SourceSpot]:
     spots: list[SourceSpot] = []
     names: set[str] = set()
@@ -244,17 +244,17 @@ def check_audible(scene: Scene, grid, problems: Problems) -> None:
                                         f"full-height obstacles); add a doorway or move the spot")
 
 
-def resolve(spec: fmt.SceneSpec, text: str) -> tuple[Scene | None, Problems]:
+def check_scene(spec: fmt.SceneSpec, text: str) -> tuple[Scene | None, Problems]:
     """Check a structurally valid spec; return the scene (None on any problem) and the problems."""
     problems = Problems()
     _check_heights(spec, problems)
     outline = closed_polygon(spec.outline, "outline", problems)
     room = shapely.Polygon(outline) if outline is not None else None
-    walls = resolve_material(spec.materials.walls, "materials.walls", problems)
-    floor = resolve_material(spec.materials.floor, "materials.floor", problems)
-    ceiling = resolve_material(spec.materials.ceiling, "materials.ceiling", problems)
-    solids = _resolve_obstacles(spec, room, problems)  # a bad ear height or spacing must not hide obstacle problems
-    spots = _resolve_spots(spec, room, solids, problems)
+    walls = checked_material(spec.materials.walls, "materials.walls", problems)
+    floor = checked_material(spec.materials.floor, "materials.floor", problems)
+    ceiling = checked_material(spec.materials.ceiling, "materials.ceiling", problems)
+    solids = _checked_obstacles(spec, room, problems)  # a bad ear height or spacing must not hide obstacle problems
+    spots = _checked_spots(spec, room, solids, problems)
     if problems:
         return None, problems
     scene = Scene(spec, outline, tuple(solids), walls, floor, ceiling, tuple(spots), text)

@@ -8,7 +8,7 @@ import yaml
 from pydantic import ValidationError
 
 from hearnav.errors import SceneError
-from hearnav.scene.checks import resolve
+from hearnav.scene.checks import check_scene
 from hearnav.scene.errors_report import problems_from
 from hearnav.scene.format import SceneSpec
 from hearnav.scene.model import Scene
@@ -39,7 +39,7 @@ def from_dict(data: dict, source: str, text: str | None = None) -> Scene:
     except ValidationError as exc:
         raise SceneError([f"{source}: {p}" for p in problems_from(exc)]) from None
     canonical = text if text is not None else yaml.safe_dump(data, sort_keys=True)
-    scene, problems = resolve(spec, canonical)
+    scene, problems = check_scene(spec, canonical)
     if problems:
         raise SceneError([f"{source}: {p}" for p in problems])
     return scene

@@ -1,4 +1,4 @@
-"""A validated scene resolved into geometry: polygons as arrays, materials as coefficients."""
+"""A validated scene turned into geometry: polygons as arrays, materials as coefficients."""
 
 from __future__ import annotations
 

@@ -21,7 +21,7 @@ from pathlib import Path
 import numpy as np
 
 from hearnav import listening
-from hearnav.acoustics import render
+from hearnav.acoustics import synthesis
 from hearnav.acoustics.cache import cache_key, load_or_build
 from hearnav.acoustics.settings import AcousticSettings
 from hearnav.env import patch, poses
@@ -38,7 +38,7 @@ STFT_FRAME = SeparationContext.n_fft
 _POSES_CODE = (poses, steering, head, geometry, grid_module, stft.stft_freqs)
 # The mixing code that computes the spectra (the rest of hearnav.listening does not change them).
 _SPECTRA_CODE = (listening.ResponseSpectra.fft_size, listening.fill_spectra, listening.reference_filter,
-                 listening.filter_fits, render)
+                 listening.filter_fits, synthesis)
 _FACTS = ("line_of_sight", "first_delay", "first_gain")
 _GRID_ARRAYS = tuple(f.name for f in dataclasses.fields(Grid) if f.name not in ("spacing", "n_headings"))
 

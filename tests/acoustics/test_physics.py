@@ -211,7 +211,7 @@ def test_equal_seeds_equal_results():
 def test_fast_renderer_matches_the_straightforward_one():
     # The affine head-shadow decomposition (H = L + alpha P) and band-train FFTs equal the per-path,
     # per-bin evaluation of the same model below 0.9 x Nyquist (windowed-sinc roll-off above).
-    from hearnav.acoustics.render import PathSet, early_direct, early_fast
+    from hearnav.acoustics.synthesis import PathSet, early_direct, early_fast
 
     rng = np.random.default_rng(0)
     paths = PathSet(rng.normal(size=(30, 3)) * 3, rng.uniform(0.1, 1, (30, 7)) / 3, rng.integers(0, 3, 30), 3)
