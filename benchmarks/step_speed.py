@@ -59,11 +59,11 @@ def floor_time(record: list) -> float:
         lo = start - lw.history
         segs = np.zeros((ROW_BLOCK * -(-len(sources) // ROW_BLOCK), lw.n_fft), np.float32)  # as the env pads rows
         for i, s in enumerate(sources):
-            segs[i, : lw.history + lw.window] = s.signal[lo: start + lw.window]
+            segs[i, : lw.history + lw.window_len] = s.signal[lo: start + lw.window_len]
         seg = sfft.rfft(segs, axis=-1)
         mix = sfft.irfft(sum(seg[i][None] * spectra[i] for i in range(len(sources))), lw.n_fft, axis=-1)
-        window = mix[:, lw.history: lw.history + lw.window]
-        istft(stft(window, 512, 128)[0], lw.window, 512, 128)
+        window = mix[:, lw.history: lw.history + lw.window_len]
+        istft(stft(window, 512, 128)[0], lw.window_len, 512, 128)
         spent += time.perf_counter() - t0
     return spent
 

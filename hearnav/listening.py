@@ -65,7 +65,7 @@ class ResponseSpectra:
     fs: int
     lead: int  # samples every response starts late (Responses.lead)
     length: int  # response length, samples
-    window: int
+    window_len: int
     fade: int
     spectra: np.ndarray  # (C, H, S, 2, F) response spectra
     references: np.ndarray  # (C, S, F) reference filter spectra (zero where the filter does not fit)
@@ -74,36 +74,36 @@ class ResponseSpectra:
     first_gain: np.ndarray  # (C, S) float32 broadband amplitude of the earliest path
 
     @staticmethod
-    def fft_size(window: int, fade: int, length: int) -> int:
+    def fft_size(window_len: int, fade: int, length: int) -> int:
         """Points of the mixing FFT: a fast length holding a window, its cross-fade and a response."""
-        return sfft.next_fast_len(window + fade + length - 1, real=True)
+        return sfft.next_fast_len(window_len + fade + length - 1, real=True)
 
     @classmethod
-    def compute(cls, responses: Responses, window: int, fade_s: float = FADE_S) -> ResponseSpectra:
+    def compute(cls, responses: Responses, window_len: int, fade_s: float = FADE_S) -> ResponseSpectra:
         """The spectra of every response in memory (for use without the store, see :mod:`hearnav.tables`)."""
-        window, fade = check_window(window), int(round(fade_s * responses.fs))
+        window_len, fade = check_window(window_len), int(round(fade_s * responses.fs))
         c, h, s = responses.early.shape[:3]
-        n_bins = cls.fft_size(window, fade, responses.length) // 2 + 1
+        n_bins = cls.fft_size(window_len, fade, responses.length) // 2 + 1
         out = [np.empty((c, h, s, 2, n_bins), np.complex64), np.empty((c, s, n_bins), np.complex64),
                np.empty((c, s), bool)]
-        fill_spectra(responses, window, fade, *out)
-        return cls(responses.fs, responses.lead, responses.length, window, fade, *out,
+        fill_spectra(responses, window_len, fade, *out)
+        return cls(responses.fs, responses.lead, responses.length, window_len, fade, *out,
                    responses.first_delay, responses.first_gain)
 
 
-def check_window(window: int) -> int:
+def check_window(window_len: int) -> int:
     """A window length in samples, checked positive."""
-    if window <= 0:
-        raise ConfigError(f"window must be a positive number of samples (got {window})")
-    return int(window)
+    if window_len <= 0:
+        raise ConfigError(f"window_len must be a positive number of samples (got {window_len})")
+    return int(window_len)
 
 
-def fill_spectra(responses: Responses, window: int, fade: int, spectra: np.ndarray, references: np.ndarray,
+def fill_spectra(responses: Responses, window_len: int, fade: int, spectra: np.ndarray, references: np.ndarray,
                  fits: np.ndarray) -> None:
     """Write every response spectrum (C, H, S, 2, F), reference filter spectrum (C, S, F) and fit flag (C, S) of
     a scene's responses on the mixing FFT grid, one cell at a time (the outputs may be memory maps)."""
     h, s = responses.early.shape[1:3]
-    n_fft = ResponseSpectra.fft_size(window, fade, responses.length)
+    n_fft = ResponseSpectra.fft_size(window_len, fade, responses.length)
     for cell in range(responses.early.shape[0]):
         resp = np.repeat(responses.tail[cell][None].astype(np.float32), h, axis=0)  # (H, S, 2, L)
         resp[..., : responses.early.shape[-1]] += responses.early[cell].astype(np.float32)
@@ -135,17 +135,17 @@ class ListeningWorld:
     def __init__(self, tables: ResponseSpectra):
         self.tables = tables
         self.fs = tables.fs
-        self.window = check_window(tables.window)
+        self.window_len = check_window(tables.window_len)
         self.fade = tables.fade
-        self.span = self.window + self.fade  # samples mixed per call
-        self.n_fft = ResponseSpectra.fft_size(self.window, self.fade, tables.length)
+        self.span = self.window_len + self.fade  # samples mixed per call
+        self.n_fft = ResponseSpectra.fft_size(self.window_len, self.fade, tables.length)
         self.history = tables.length - 1  # past samples each mix needs
         self._spectra, self._references, self._fits = tables.spectra, tables.references, tables.fits
 
     @classmethod
-    def of(cls, responses: Responses, window: int, fade_s: float = FADE_S) -> ListeningWorld:
+    def of(cls, responses: Responses, window_len: int, fade_s: float = FADE_S) -> ListeningWorld:
         """A world that computes its spectra in memory (:meth:`ResponseSpectra.compute`)."""
-        return cls(ResponseSpectra.compute(responses, window, fade_s))
+        return cls(ResponseSpectra.compute(responses, window_len, fade_s))
 
     @property
     def warmup(self) -> int:
@@ -154,7 +154,7 @@ class ListeningWorld:
 
     def signal_length(self, n_windows: int) -> int:
         """Dry samples each source needs for ``n_windows`` windows starting at :attr:`warmup`."""
-        return self.warmup + n_windows * self.window + self.fade
+        return self.warmup + n_windows * self.window_len + self.fade
 
     def spectrum(self, cell: int, heading: int, spot: int) -> np.ndarray:
         """(2, F) complex64 spectrum of a response (read-only)."""
@@ -260,7 +260,7 @@ class ListeningSession:
         """The current window at any pose, without moving or advancing time (no cross-fade)."""
         win = self.world.mix(cell, heading, self.sources, self.time, self.target, self.all_images,
                                 self._current_seg(), self.target_image)
-        return win.part(0, self.world.window)
+        return win.part(0, self.world.window_len)
 
     def listen(self, cell: int, heading: int) -> Window:
         """The current window at a pose, cross-faded from the previous pose; then advance one window."""
@@ -269,9 +269,9 @@ class ListeningSession:
                         self.target_image)
         if self._tail is not None and w.fade:
             span = _blend(self._tail, span, self._fade_out)
-        out = span.part(0, w.window)
-        self._tail = span.part(w.window)
-        self.time += w.window
+        out = span.part(0, w.window_len)
+        self._tail = span.part(w.window_len)
+        self.time += w.window_len
         self._seg = None
         return out
 

@@ -231,7 +231,7 @@ def test_peek_does_not_change_state(world):
 
 @pytest.mark.parametrize("window", [0, -160])
 def test_window_must_be_positive(responses, window):
-    with pytest.raises(ConfigError, match=rf"window must be a positive number of samples \(got {window}\)"):
+    with pytest.raises(ConfigError, match=rf"window_len must be a positive number of samples \(got {window}\)"):
         ListeningWorld.of(responses, window)
 
 

@@ -70,7 +70,7 @@ def check_scene(world: World, rng: np.random.Generator, separator: str, per_spot
             for cell in moves[k]:
                 heading, bearing = _facing(world, cell, xy)
                 win = lw.render(cell, heading, srcs, lw.warmup)
-                est = sep(win.mixture[:, : lw.window], SeparationContext(fs=fs, azimuth=bearing))
-                scores.append(si_sdr(est, win.reference[: lw.window]))
+                est = sep(win.mixture[:, : lw.window_len], SeparationContext(fs=fs, azimuth=bearing))
+                scores.append(si_sdr(est, win.reference[: lw.window_len]))
             out.append(OcclusionResult(world.scene.name, world.scene.spots[spot].name, *moves[k], *scores))
     return out

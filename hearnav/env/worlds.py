@@ -25,11 +25,11 @@ class World:
     listening: ListeningWorld
 
 
-def get_world(name: str, settings: AcousticSettings, window: int) -> World:
+def get_world(name: str, settings: AcousticSettings, window_len: int) -> World:
     """The world of a named scene (its tables are built into the store on first use, then memory-mapped)."""
     scene = load_named(name)
     poses = scene_tables.pose_tables(scene, settings)
-    return World(scene, poses.grid, poses, ListeningWorld(scene_tables.response_spectra(scene, settings, window)))
+    return World(scene, poses.grid, poses, ListeningWorld(scene_tables.response_spectra(scene, settings, window_len)))
 
 
 def get_views(name: str, settings: AcousticSettings, size: int, fov_rad: float) -> PoseViews:

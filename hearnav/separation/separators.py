@@ -35,7 +35,7 @@ _MEDIAN_TOL = 1e-9
 
 
 @register_separator("ear")
-def better_ear(mixture: np.ndarray, ctx: SeparationContext) -> np.ndarray:
+def ear(mixture: np.ndarray, ctx: SeparationContext) -> np.ndarray:
     """The ear nearer the target, unprocessed (mean of the ears straight ahead or behind)."""
     side = np.sin(ctx.azimuth)
     if side > _MEDIAN_TOL:

@@ -102,23 +102,23 @@ def _poses_of(part: Part) -> PoseTables:
                       s["fs"], s["lead"], s["length"])
 
 
-def response_spectra(scene: Scene, settings: AcousticSettings, window: int,
+def response_spectra(scene: Scene, settings: AcousticSettings, window_len: int,
                      fade_s: float = listening.FADE_S) -> listening.ResponseSpectra:
     """The scene's :class:`hearnav.listening.ResponseSpectra` for a window length, from the store."""
-    window = listening.check_window(window)
+    window_len = listening.check_window(window_len)
     fade = int(round(fade_s * settings.fs))
-    key = digest("spectra", cache_key(scene, settings), window, fade, source_digest(*_SPECTRA_CODE))
+    key = digest("spectra", cache_key(scene, settings), window_len, fade, source_digest(*_SPECTRA_CODE))
 
     def build(out: PartWriter) -> None:
         responses = load_or_build(scene, settings)
         c, h, s = responses.early.shape[:3]
-        n_bins = listening.ResponseSpectra.fft_size(window, fade, responses.length) // 2 + 1
-        listening.fill_spectra(responses, window, fade, out.empty("spectra", (c, h, s, 2, n_bins), np.complex64),
+        n_bins = listening.ResponseSpectra.fft_size(window_len, fade, responses.length) // 2 + 1
+        listening.fill_spectra(responses, window_len, fade, out.empty("spectra", (c, h, s, 2, n_bins), np.complex64),
                                out.empty("references", (c, s, n_bins), np.complex64), out.empty("fits", (c, s), bool))
 
     part = open_part(_folder(scene, "spectra", key), key, ("spectra", "references", "fits"), build)
     pt = pose_tables(scene, settings)
-    return listening.ResponseSpectra(pt.fs, pt.lead, pt.length, window, fade, part["spectra"], part["references"],
+    return listening.ResponseSpectra(pt.fs, pt.lead, pt.length, window_len, fade, part["spectra"], part["references"],
                                      part["fits"], pt.first_delay, pt.first_gain)
 
 

@@ -1,4 +1,4 @@
-"""Anechoic two-source check: steering at the target beats the better ear; the oracle mask is best.
+"""Anechoic two-source check: steering at the target beats the ear separator; the oracle mask is best.
 
 Two equal-level far-field sources through the spherical-head steering vector (no room): a talker-like target
 and interferer (harmonic, formants, syllabic envelope), and a white-noise pair. SI-SDR is measured against the
@@ -9,13 +9,13 @@ the "ear" separator):
 
 talker-like, target +60 deg, interferer -60 deg:
     ear -21.4 | delay-and-sum 7.8 (margin +15.8) | mvdr 22.5 (+25.0) | spatial-mask 21.2 (+28.6)
-    | oracle-mask 29.4 (+35.2); the better ear against its OWN target image (time-aligned baseline): 3.7
+    | oracle-mask 29.4 (+35.2); the ear separator against its OWN target image (time-aligned baseline): 3.7
 talker-like, target +30 deg, interferer -45 deg:
     ear -6.0 | delay-and-sum 5.2 (+9.0) | mvdr 24.1 (+21.7) | spatial-mask 19.8 (+22.8) | oracle-mask 28.5 (+30.5);
-    aligned better ear 2.5
+    aligned ear separator 2.5
 white noise, target +60 deg, interferer -60 deg:
     ear -16.8 | delay-and-sum 8.6 (+24.7) | mvdr 14.8 (+30.7) | spatial-mask -1.0 (+15.2) | oracle-mask 11.7
-    (+27.8); aligned better ear 10.9. (With fully overlapping noise the spatial mask hurts and MVDR, which nulls
+    (+27.8); aligned ear separator 10.9. (With fully overlapping noise the spatial mask hurts and MVDR, which nulls
     the single interferer exactly, beats the oracle mask; so the ranking below is asserted for talker-like
     sources only.)
 
@@ -45,12 +45,12 @@ def _scores(kind, az_t, az_i, seeds=range(3)):
 
 
 @pytest.mark.parametrize("az_t, az_i, margin", [(60, -60, 10.0), (30, -45, 6.0)])
-def test_steering_beats_the_better_ear_on_talkers(az_t, az_i, margin):
+def test_steering_beats_the_ear_on_talkers(az_t, az_i, margin):
     # Margins measured above (smallest +15.8 / +9.0 dB for delay-and-sum); asserted with headroom.
     scores, aligned_ear = _scores("voiced", az_t, az_i)
     for name in STEERED:
         assert np.all(scores[name] - scores["ear"] > margin), (name, scores[name], scores["ear"])
-    for name in ["mvdr", "spatial-mask"]:  # also far above the time-aligned better ear (measured +17 dB or more)
+    for name in ["mvdr", "spatial-mask"]:  # also far above the time-aligned ear separator (measured +17 dB or more)
         assert np.all(scores[name] - aligned_ear > 10.0), (name, scores[name], aligned_ear)
     # The oracle is best on average (per seed MVDR can edge it: 22.9 vs 22.0 dB on one seed at +30 / -45 deg,
     # since the oracle masks the delay-and-sum output, which MVDR's spatial null can beat).
@@ -58,9 +58,9 @@ def test_steering_beats_the_better_ear_on_talkers(az_t, az_i, margin):
     assert means["oracle-mask"] > max(v for n, v in means.items() if n != "oracle-mask"), means
 
 
-def test_beamformers_beat_the_better_ear_on_noise():
+def test_beamformers_beat_the_ear_on_noise():
     # White-noise pair at +60 / -60 deg: delay-and-sum and MVDR gain > 20 dB over "ear" (measured +24.7 / +30.7),
-    # MVDR also > 3 dB over the time-aligned better ear (measured 14.8 vs 10.9 dB).
+    # MVDR also > 3 dB over the time-aligned ear separator (measured 14.8 vs 10.9 dB).
     scores, aligned_ear = _scores("noise", 60, -60)
     for name in ["delay-and-sum", "mvdr"]:
         assert np.all(scores[name] - scores["ear"] > 20.0), (name, scores[name], scores["ear"])
