@@ -33,6 +33,7 @@ def main() -> None:
     from hearnav.acoustics import responses as R
     from hearnav.acoustics.synthesis import PathSet, early_direct, early_fast
     from hearnav.acoustics.settings import RESPONSE_LEAD
+    from hearnav.physics.geometry import heading_angles
     from hearnav.scene.grid import build_grid
     from hearnav.scene.library import DEFAULT_SCENE, load_named
 
@@ -67,7 +68,7 @@ def main() -> None:
     spots = np.array([s.position for s in scene.spots])
     paths, *_ = R._pair_paths(images, receivers[: args.sample], spots, room.air_coefficients(settings),
                               (resp.length - RESPONSE_LEAD) / settings.fs, settings.speed_of_sound)
-    headings = 2 * np.pi * np.arange(settings.n_headings) / settings.n_headings
+    headings = heading_angles(settings.n_headings)
     n = paths.n_pairs * settings.n_headings
     length = resp.early.shape[-1]
     common = (headings, settings.fs, settings.speed_of_sound, settings.head_radius, length, RESPONSE_LEAD)

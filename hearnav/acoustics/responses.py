@@ -3,16 +3,20 @@
 from __future__ import annotations
 
 from collections.abc import Callable
+from typing import TYPE_CHECKING
 from dataclasses import dataclass
 
 import numpy as np
 
-from hearnav.acoustics import room
 from hearnav.physics import reverberation
+from hearnav.physics.geometry import heading_angles
 from hearnav.acoustics.probes import choose_probes
 from hearnav.acoustics.synthesis import FD_TAPS, PathSet, early_fast
 from hearnav.acoustics.settings import RESPONSE_LEAD, AcousticSettings
 from hearnav.acoustics.tail import binaural_tails, smooth_histogram
+
+if TYPE_CHECKING:
+    from hearnav.acoustics import room
 from hearnav.scene.grid import Grid
 from hearnav.scene.model import Scene
 
@@ -110,10 +114,12 @@ def _decay_rt60(hist: np.ndarray, bin_s: float) -> np.ndarray:
 
 def build_responses(scene: Scene, grid: Grid, settings: AcousticSettings,
                     progress: Callable[[int], None] | None = None) -> Responses:
-    """Simulate and render every response of a scene. ``progress(n)`` is called with cells done."""
+    """Simulate the room and synthesise every response of a scene. ``progress(n)`` is called with cells done."""
     fs, c = settings.fs, settings.speed_of_sound
     receivers = np.c_[grid.centers, np.full(grid.n_cells, scene.ear_height)]
-    headings = 2 * np.pi * np.arange(settings.n_headings) / settings.n_headings
+    headings = heading_angles(settings.n_headings)
+    from hearnav.acoustics import room  # pyroomacoustics loads only when responses are simulated
+
     images = room.image_sources(scene, settings, receivers)
     probe_cells, owner = choose_probes(grid, settings.probe_spacing)
     hist, bin_s, _ = room.tail_histograms(scene, settings, receivers[probe_cells])

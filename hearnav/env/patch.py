@@ -7,6 +7,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from hearnav.physics.geometry import heading_angles
 from hearnav.scene.grid import Grid
 
 
@@ -77,7 +78,7 @@ class PoseViews:
         """
         occupancy = np.stack([np.stack([occupancy_patch(grid, c, h, size) for h in range(grid.n_headings)])
                               for c in range(grid.n_cells)])  # (C, H, P, P)
-        angles = 2.0 * np.pi * np.arange(grid.n_headings) / grid.n_headings  # (H,)
+        angles = heading_angles(grid.n_headings)  # (H,)
         seen = line_of_sight[:, None, :] & (np.abs(bearing) <= fov_rad / 2 + 1e-9)
         cells = (np.asarray(spots_xy, float)[None] - grid.centers[:, None]) / grid.spacing  # (C, S, 2)
         cos, sin = np.cos(angles)[None, :, None], np.sin(angles)[None, :, None]

@@ -15,6 +15,7 @@ import shapely
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
+from hearnav.physics.geometry import heading_angles
 from hearnav.scene.model import Scene
 
 #: A cell counts when its centre is at least this far (m) from every surface: the listener's radius.
@@ -54,7 +55,7 @@ class Grid:
 
     def heading_angle(self, heading: int) -> float:
         """Heading in radians, counter-clockwise from +x."""
-        return 2.0 * np.pi * heading / self.n_headings
+        return float(heading_angles(self.n_headings)[heading])
 
     def step(self, heading: int) -> np.ndarray:
         """Grid offset (di, dj) of a forward move."""
