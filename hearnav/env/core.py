@@ -54,7 +54,7 @@ def _scores(separator: str, reference: np.ndarray, *estimates: np.ndarray) -> li
     SeparatorError
         The first estimate (the separator's) is not finite.
     """
-    scores = si_sdrs_unchecked(reference, *estimates, silent=SILENT_ENERGY)
+    scores = si_sdrs_unchecked(*estimates, reference=reference, silent=SILENT_ENERGY)
     if scores is None:
         scores = [None] * len(estimates)
         finite = bool(np.isfinite(estimates[0]).all())

@@ -88,10 +88,10 @@ _CLOSED_FORM_MAX = 1e6
 def si_sdr_unchecked(estimate: np.ndarray, reference: np.ndarray) -> float:
     """:func:`si_sdr` without input checks, for callers that guarantee finite (n,) inputs and a sounding
     reference: the same formula and clipping on Python floats (see :func:`si_sdrs_unchecked`)."""
-    return si_sdrs_unchecked(reference, estimate, silent=-math.inf)[0]
+    return si_sdrs_unchecked(estimate, reference=reference, silent=-math.inf)[0]
 
 
-def si_sdrs_unchecked(reference: np.ndarray, *estimates: np.ndarray, silent: float = 0.0) -> list[float] | None:
+def si_sdrs_unchecked(*estimates: np.ndarray, reference: np.ndarray, silent: float = 0.0) -> list[float] | None:
     """SI-SDR in dB of each (n,) estimate against one (n,) reference, without input checks (the environment's
     hot path), or None when the reference is silent (||reference||^2 <= ``silent``).
 

@@ -137,6 +137,6 @@ def test_unchecked_scores_of_several_estimates_and_a_silent_reference():
     est, ref = _pair(11)
     other = est[::-1].copy()
     want = [float(fast_bss_eval.si_sdr(ref[None], e[None], zero_mean=False)[0]) for e in (est, other)]
-    assert si_sdrs_unchecked(ref, est, other) == pytest.approx(want, abs=1e-6)
-    assert si_sdrs_unchecked(np.zeros_like(ref), est, silent=1e-12) is None
-    assert np.isnan(si_sdrs_unchecked(ref, np.full_like(est, np.nan))[0])  # a NaN sample gives a NaN score
+    assert si_sdrs_unchecked(est, other, reference=ref) == pytest.approx(want, abs=1e-6)
+    assert si_sdrs_unchecked(est, reference=np.zeros_like(ref), silent=1e-12) is None
+    assert np.isnan(si_sdrs_unchecked(np.full_like(est, np.nan), reference=ref)[0])  # a NaN sample gives a NaN score
