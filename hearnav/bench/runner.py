@@ -17,6 +17,7 @@ import numpy as np
 from hearnav.bench.oracle import OracleCache, oracle_bound
 from hearnav.bench.policy import is_privileged
 from hearnav.bench.registry import resolve
+from hearnav.bench.results import EpisodeResult
 from hearnav.bench.suites import Suite, policy_seed
 from hearnav.env.core import HearNavEnv
 
@@ -54,16 +55,17 @@ def _valid_action(action) -> int:
     return int(x)
 
 
-def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> dict:
-    """Play one episode and return its result row (status "ok" or "failed")."""
+def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult:
+    """Play one episode and return its result (status "ok" or "failed")."""
     t0 = time.perf_counter()
     privileged = is_privileged(policy)
-    row = {"policy": name, "privileged": privileged, "episode_index": task.index, "episode_seed": task.seed,
-           "oracle_si_sdr_db": task.oracle, "status": "ok", "error": None}
     obs, info = env.reset(seed=task.seed)
-    row.update(scene=info["scene"], start_si_sdr_db=info["si_sdr_db"], start_mixture_si_sdr_db=info["mixture_si_sdr_db"])
+    start = info["si_sdr_db"]
+    result = EpisodeResult(policy=name, privileged=privileged, episode_index=task.index, episode_seed=task.seed,
+                           oracle_si_sdr_db=task.oracle, scene=info["scene"], start_si_sdr_db=start,
+                           start_mixture_si_sdr_db=info["mixture_si_sdr_db"])
     start_xy = (info["pose"]["x"], info["pose"]["y"])
-    best, ret, collisions, path, steps = info["si_sdr_db"], 0.0, 0, 0.0, 0
+    best, ret, collisions, path, steps = start, 0.0, 0, 0.0, 0
     audio = [] if task.audio_dir else None
     try:
         extra = {"seed": policy_seed(task.seed)}
@@ -83,23 +85,23 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> dict:
             if audio is not None:
                 audio.append(env.unwrapped.privileged.last_window())
     except Exception as exc:  # the policy's fault: record it, never crash the run
-        row.update(status="failed", error=f"{type(exc).__name__}: {exc}".splitlines()[0][:500])
+        result.status, result.error = "failed", f"{type(exc).__name__}: {exc}".splitlines()[0][:500]
     final = info["si_sdr_db"]
-    gain = final - row["start_si_sdr_db"]
-    span = None if task.oracle is None else task.oracle - row["start_si_sdr_db"]
-    row.update(final_si_sdr_db=final, best_si_sdr_db=best, gain_db=gain, episode_return=ret,
-               normalized_gain=(gain / span) if span and span > 1e-9 else None,
-               path_length_m=path, steps=steps, collisions=collisions,
-               final_pose=info["pose"], start_xy=list(start_xy),
-               wall_time_s=time.perf_counter() - t0)
+    gain = final - start
+    span = None if task.oracle is None else task.oracle - start
+    result.final_si_sdr_db, result.best_si_sdr_db, result.gain_db, result.episode_return = final, best, gain, ret
+    result.normalized_gain = (gain / span) if span and span > 1e-9 else None
+    result.path_length_m, result.steps, result.collisions = path, steps, collisions
+    result.final_pose, result.start_xy = info["pose"], list(start_xy)
+    result.wall_time_s = time.perf_counter() - t0
     if audio:
         from hearnav.bench.audio import save_episode_audio
 
         save_episode_audio(Path(task.audio_dir), name, task.index, audio, env.fs)
-    return row
+    return result
 
 
-def _work(args: tuple[dict, Task]) -> dict:
+def _work(args: tuple[dict, Task]) -> EpisodeResult:
     options, task = args
     env = _env(options)
     name, policy = resolve(task.policy)
@@ -136,7 +138,7 @@ def _map(fn, items: list, workers: int, chunksize: int = 1):
 
 
 def run_tasks(suite: Suite, tasks: list[Task], workers: int):
-    """Rows of the tasks, as they finish. Tasks of one episode go to one worker together, so the episode's
+    """Results of the tasks, as they finish. Tasks of one episode go to one worker together, so the episode's
     sounds are generated once for all policies."""
     options = suite.env_config().model_dump()
     ordered = sorted(tasks, key=lambda t: (t.index, t.policy))

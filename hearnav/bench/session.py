@@ -7,15 +7,18 @@ computes the oracle bounds, runs the remaining episodes and writes the summary. 
 
 from __future__ import annotations
 
-import json
+import dataclasses
 import os
-import tempfile
 from collections.abc import Callable, Sequence
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from hearnav.bench import results
-from hearnav.bench.suites import Suite, load_suite
 from hearnav.errors import ConfigError
+
+if TYPE_CHECKING:  # imported when run, so that importing hearnav.bench stays light
+    from hearnav.bench.stats import Summary
+    from hearnav.bench.suites import Suite
 
 # progress(stage, done, total): called with done == 0 when a stage starts, then after each episode of it
 Progress = Callable[[str, int, int], None]
@@ -28,16 +31,6 @@ def code_version() -> str:
     from hearnav.acoustics.settings import MODEL_VERSION
 
     return f"{__version__}+model{MODEL_VERSION}"
-
-
-def _write_json(path: Path, data: dict) -> None:
-    """Replace ``path`` atomically with ``data`` as indented, key-sorted JSON."""
-    fd, tmp = tempfile.mkstemp(dir=path.parent, suffix=".tmp")
-    with os.fdopen(fd, "w") as f:
-        json.dump(data, f, indent=2, sort_keys=True)
-        f.flush()
-        os.fsync(f.fileno())
-    os.replace(tmp, path)
 
 
 def _counter(progress: Progress | None, stage: str, total: int) -> Callable[[], None]:
@@ -69,7 +62,7 @@ def _check_arguments(policies: Sequence[str], workers: int, save_audio: int) -> 
 
 
 def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os.PathLike, workers: int = 1,
-        reference: str = "still", save_audio: int = 0, progress: Progress | None = None):
+        reference: str = "still", save_audio: int = 0, progress: Progress | None = None) -> Summary:
     """Run ``policies`` on every episode of ``suite`` not yet in ``out``; write rows and the summary.
 
     Parameters
@@ -92,12 +85,13 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
     Returns
     -------
     Summary
-        What ``out/summary.json`` holds.
+        What ``out/summary.json`` holds (:meth:`Summary.to_dict`), over every row in ``out``.
     """
     from hearnav.acoustics import cache_dir
-    from hearnav.bench import stats
     from hearnav.bench.registry import resolve
     from hearnav.bench.runner import Task, compute_oracles, run_tasks
+    from hearnav.bench.stats import summarise
+    from hearnav.bench.suites import Suite, load_suite
 
     policies = _check_arguments(policies, workers, save_audio)
     suite = suite if isinstance(suite, Suite) else load_suite(str(suite))
@@ -117,13 +111,11 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
              for ref in policies for k, s in enumerate(seeds) if (ref, s) not in done]
     step = _counter(progress, suite.name, len(tasks))
     with results.ResultWriter(rows_path) as writer:
-        for row in run_tasks(suite, tasks, workers):
-            writer.append(row)
+        for result in run_tasks(suite, tasks, workers):
+            writer.append(result)
             step()
     rows = results.read_rows(rows_path)
-    summary = stats.summary(rows, reference=reference)
-    summary_doc = {"suite": suite.name, "suite_hash": suite.digest(), "code_version": code_version(),
-                   "reference": reference, "reference_missing": summary.get("reference_missing", False),
-                   "policies": stats.policy_entries(summary), "comparisons": summary.get("comparisons", {})}
-    _write_json(out / "summary.json", summary_doc)
+    summary = dataclasses.replace(summarise(rows, reference=reference), suite=suite.name,
+                                  suite_hash=suite.digest(), code_version=code_version())
+    results.write_json(out / results.SUMMARY_FILE, summary.to_dict())
     return summary

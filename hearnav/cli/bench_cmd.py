@@ -54,7 +54,7 @@ def run(args) -> int:
     finally:
         bars.close()
     print(stats.format_table(summary))
-    failed = sum(entry["failures"] for entry in stats.policy_entries(summary).values())
+    failed = summary.failures
     if failed:
         print(f"{failed} episode(s) failed; see the 'error' field in {args.out / 'episodes.jsonl'}", file=sys.stderr)
     return 1 if failed else 0

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import math
 import re
 
@@ -10,7 +11,7 @@ import pytest
 from scipy import stats
 
 from hearnav.bench.results import ResultsError
-from hearnav.bench.stats import bootstrap_ci, format_table, paired_comparison, policy_entries, summarise, summary
+from hearnav.bench.stats import Summary, bootstrap_ci, format_table, mean_ci, paired_comparison, summarise
 
 
 def scipy_ci(x, method: str, seed: int = 0, confidence: float = 0.95, n_resamples: int = 9999):
@@ -53,12 +54,12 @@ def test_bootstrap_ci_covers_the_mean_of_a_normal_sample_at_the_nominal_rate():
     assert 0.88 <= covered / 200 <= 0.99
 
 
-def test_summarise_ignores_none_and_nan():
-    s = summarise([1.0, None, 3.0, float("nan"), 2.0, float("inf")])
+def test_mean_ci_ignores_none_and_nan():
+    s = mean_ci([1.0, None, 3.0, float("nan"), 2.0, float("inf")])
     assert s["n"] == 3 and s["mean"] == pytest.approx(2.0)
     assert s["ci95"] == pytest.approx(list(scipy_ci([1.0, 3.0, 2.0], "BCa")))
-    assert summarise([None, float("nan")]) == {"mean": None, "ci95": [None, None], "n": 0}
-    assert summarise([4.0]) == {"mean": 4.0, "ci95": [None, None], "n": 1}
+    assert mean_ci([None, float("nan")]) == {"mean": None, "ci95": [None, None], "n": 0}
+    assert mean_ci([4.0]) == {"mean": 4.0, "ci95": [None, None], "n": 1}
 
 
 def test_paired_comparison_recovers_a_known_shift():
@@ -118,42 +119,52 @@ ROWS = [
 ]
 
 
-def test_summary_counts_failures_and_excludes_them_from_means():
-    s = summary(ROWS)
-    assert list(s) == ["still", "walker", "oracle", "comparisons", "reference", "reference_missing"]
-    assert list(policy_entries(s)) == ["still", "walker", "oracle"]
-    walker = s["walker"]
+def test_summarise_counts_failures_and_excludes_them_from_means():
+    s = summarise(ROWS)
+    assert isinstance(s, Summary) and list(s.policies) == ["still", "walker", "oracle"]
+    assert s.failures == 2
+    walker = s.policies["walker"]
     assert (walker["episodes"], walker["ok"], walker["failures"], walker["privileged"]) == (5, 4, 1, False)
     assert walker["gain_db"]["n"] == 4 and walker["gain_db"]["mean"] == pytest.approx(6.0)
     assert walker["final_si_sdr_db"]["mean"] == pytest.approx(1.0)
     assert walker["normalized_gain"]["mean"] == pytest.approx(0.725)
-    assert s["still"]["failures"] == 1 and s["still"]["gain_db"]["mean"] == pytest.approx(1.0)
-    assert s["oracle"]["privileged"] is True
-    assert s["reference_missing"] is False
+    assert s.policies["still"]["failures"] == 1 and s.policies["still"]["gain_db"]["mean"] == pytest.approx(1.0)
+    assert s.policies["oracle"]["privileged"] is True
+    assert s.reference_missing is False and s.reference == "still"
 
 
-def test_summary_pairs_on_seeds_both_finished():
-    s = summary(ROWS)
-    assert set(s["comparisons"]) == {"walker", "oracle"}
-    walker = s["comparisons"]["walker"]  # seeds 1 and 3 only: 3 - 0 and 5 - 2
+def test_summarise_pairs_on_seeds_both_finished():
+    s = summarise(ROWS)
+    assert set(s.comparisons) == {"walker", "oracle"}
+    walker = s.comparisons["walker"]  # seeds 1 and 3 only: 3 - 0 and 5 - 2
     assert walker["n"] == 2 and walker["mean_difference"] == pytest.approx(3.0)
     assert walker == paired_comparison([3.0, 5.0], [0.0, 2.0])
-    oracle = s["comparisons"]["oracle"]  # seeds 1 and 2: 10 - 0 and 11 - 1
+    oracle = s.comparisons["oracle"]  # seeds 1 and 2: 10 - 0 and 11 - 1
     assert oracle["n"] == 2 and oracle["ci95"] == [10.0, 10.0] and oracle["wilcoxon_p"] is not None
 
 
-def test_summary_without_reference():
-    s = summary([r for r in ROWS if r["policy"] != "still"])
-    assert s["comparisons"] == {} and s["reference_missing"] is True
-    assert summary(ROWS, reference="walker")["comparisons"]["still"]["mean_difference"] == pytest.approx(-3.0)
+def test_summarise_without_reference():
+    s = summarise([r for r in ROWS if r["policy"] != "still"])
+    assert s.comparisons == {} and s.reference_missing is True
+    assert summarise(ROWS, reference="walker").comparisons["still"]["mean_difference"] == pytest.approx(-3.0)
     with pytest.raises(ResultsError, match="row 0: expected keys 'policy' and 'episode_seed'"):
-        summary([{"status": "ok"}])
-    with pytest.raises(ResultsError, match="row 0: expected a policy name other than comparisons, reference"):
-        summary([ep("comparisons", 1, gain=1.0)])
+        summarise([{"status": "ok"}])
+    # a policy may be called like a summary field: the entries live apart from the summary's own fields
+    assert list(summarise([ep("comparisons", 1, gain=1.0)]).policies) == ["comparisons"]
+
+
+def test_summary_json_form_round_trips():
+    s = summarise(ROWS)
+    doc = json.loads(json.dumps(s.to_dict()))
+    assert set(doc) == {"suite", "suite_hash", "code_version", "reference", "reference_missing", "policies",
+                        "comparisons"}  # the fields of DIR/summary.json, as the README lists them
+    assert Summary.from_dict(doc) == s
+    with pytest.raises(ResultsError, match=r"got one without \['comparisons'\]"):
+        Summary.from_dict({"policies": {}, "reference": "still"})
 
 
 def test_format_table():
-    text = format_table(summary(ROWS))
+    text = format_table(summarise(ROWS))
     lines = text.split("\n")
     assert lines[0].split("  ")[0] == "policy" and "vs still: diff dB" in lines[0]
     assert set(lines[1]) <= {"-", " "}
@@ -164,5 +175,5 @@ def test_format_table():
     assert "(reference)" in still
     oracle = next(line for line in lines if line.startswith("oracle"))
     assert " yes " in oracle and "10.00 [10.00, 10.00]" in oracle
-    missing = format_table(summary([r for r in ROWS if r["policy"] == "walker"]))
+    missing = format_table(summarise([r for r in ROWS if r["policy"] == "walker"]))
     assert "no rows from reference policy 'still'" in missing and "n/a" in missing
