@@ -45,7 +45,7 @@ class _Bars:
 
 def run(args) -> int:
     from hearnav.bench import run as run_bench
-    from hearnav.bench import stats
+    from hearnav.report import format_table
 
     bars = _Bars()
     try:
@@ -53,7 +53,7 @@ def run(args) -> int:
                             save_audio=args.save_audio, progress=bars)
     finally:
         bars.close()
-    print(stats.format_table(summary))
+    print(format_table(summary))
     failed = summary.failures
     if failed:
         print(f"{failed} episode(s) failed; see the 'error' field in {args.out / 'episodes.jsonl'}", file=sys.stderr)

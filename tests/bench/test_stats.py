@@ -4,14 +4,13 @@ from __future__ import annotations
 
 import json
 import math
-import re
 
 import numpy as np
 import pytest
 from scipy import stats
 
 from hearnav.bench.results import ResultsError
-from hearnav.bench.stats import Summary, bootstrap_ci, format_table, mean_ci, paired_comparison, summarise
+from hearnav.bench.stats import Summary, bootstrap_ci, mean_ci, paired_comparison, summarise
 
 
 def scipy_ci(x, method: str, seed: int = 0, confidence: float = 0.95, n_resamples: int = 9999):
@@ -161,19 +160,3 @@ def test_summary_json_form_round_trips():
     assert Summary.from_dict(doc) == s
     with pytest.raises(ResultsError, match=r"got one without \['comparisons'\]"):
         Summary.from_dict({"policies": {}, "reference": "still"})
-
-
-def test_format_table():
-    text = format_table(summarise(ROWS))
-    lines = text.split("\n")
-    assert lines[0].split("  ")[0] == "policy" and "vs still: diff dB" in lines[0]
-    assert set(lines[1]) <= {"-", " "}
-    walker = re.split(r"\s{2,}", next(line for line in lines if line.startswith("walker")))
-    assert walker[:4] == ["walker", "no", "4", "1"]  # 4 ok episodes, 1 failure
-    assert walker[4].startswith("6.00 [") and walker[7:] == ["3.00 [3.00, 3.00]", "2", "0.5"]
-    still = next(line for line in lines if line.startswith("still"))
-    assert "(reference)" in still
-    oracle = next(line for line in lines if line.startswith("oracle"))
-    assert " yes " in oracle and "10.00 [10.00, 10.00]" in oracle
-    missing = format_table(summarise([r for r in ROWS if r["policy"] == "walker"]))
-    assert "no rows from reference policy 'still'" in missing and "n/a" in missing
