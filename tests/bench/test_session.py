@@ -5,7 +5,8 @@ import json
 
 import pytest
 
-from hearnav.bench import code_version, run
+import hearnav.bench
+from hearnav.bench import code_version, run, runner
 from hearnav.bench.results import EpisodeResult, encode_row, read_rows
 from hearnav.bench.stats import Summary
 from hearnav.bench.suites import load_suite
@@ -27,7 +28,8 @@ def test_run_returns_what_it_writes_and_prints_nothing(smoke, tmp_path, capsys):
     calls = []
     summary = run(smoke, ["still"], tmp_path / "run", progress=lambda *a: calls.append(a))
     assert capsys.readouterr() == ("", "")  # a library prints nothing
-    assert isinstance(summary, Summary)
+    assert runner._worker_env is None  # the calling process keeps no environment in a module global
+    assert isinstance(summary, Summary) and Summary is hearnav.bench.Summary
     assert (summary.suite, summary.suite_hash, summary.code_version) == ("smoke", smoke.digest(), code_version())
     assert summary.to_dict() == json.loads((tmp_path / "run" / "summary.json").read_text())
     assert summary.policies["still"]["ok"] == 3 and summary.failures == 0
