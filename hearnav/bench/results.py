@@ -10,7 +10,7 @@ A run folder ``DIR`` holds
   (temporary file, ``fsync``, ``os.replace``) by :func:`write_manifest`. :func:`check_manifest` refuses to
   add results to a folder that holds results of another suite or code version.
 
-Rows are plain dicts. Floats that JSON cannot hold (NaN, +-inf) are stored as ``null``; NumPy scalars and
+A row is an :class:`EpisodeResult`, written as a plain dict (:meth:`EpisodeResult.to_dict`). Floats that JSON cannot hold (NaN, +-inf) are stored as ``null``; NumPy scalars and
 arrays are stored as Python numbers and lists. Keys containing ``"time"`` are wall-clock measurements by
 convention and :func:`comparable` drops them before rows are compared.
 """
@@ -21,6 +21,7 @@ import json
 import math
 import os
 from collections.abc import Iterable, Mapping
+from dataclasses import dataclass, field, fields
 from pathlib import Path
 from types import TracebackType
 from typing import Any
@@ -30,6 +31,7 @@ import numpy as np
 from hearnav.errors import HearnavError
 
 EPISODES_FILE = "episodes.jsonl"
+SUMMARY_FILE = "summary.json"
 MANIFEST_FILE = "run.json"
 DONE_STATUSES = ("ok", "failed")
 MANIFEST_KEYS = ("suite_hash", "code_version")
@@ -37,6 +39,55 @@ MANIFEST_KEYS = ("suite_hash", "code_version")
 
 class ResultsError(HearnavError):
     """A result file or run folder is corrupt, or does not match the run being started."""
+
+
+@dataclass
+class EpisodeResult:
+    """One policy on one episode: a row of ``DIR/episodes.jsonl`` (``status`` "ok" or "failed").
+
+    Scores are SI-SDR in dB. ``normalized_gain`` is gain / (oracle bound - start score), ``None`` when the
+    bound is unknown or not above the start. ``extra`` keeps fields this version does not know (rows written
+    by other versions), so they survive a round trip.
+    """
+
+    policy: str
+    episode_seed: int
+    status: str = "ok"
+    error: str | None = None
+    privileged: bool = False
+    episode_index: int | None = None
+    scene: str | None = None
+    oracle_si_sdr_db: float | None = None
+    start_si_sdr_db: float | None = None
+    start_mixture_si_sdr_db: float | None = None
+    final_si_sdr_db: float | None = None
+    best_si_sdr_db: float | None = None
+    gain_db: float | None = None
+    episode_return: float | None = None
+    normalized_gain: float | None = None
+    path_length_m: float | None = None
+    steps: int | None = None
+    collisions: int | None = None
+    final_pose: dict | None = None
+    start_xy: list | None = None
+    wall_time_s: float | None = None
+    extra: dict = field(default_factory=dict)
+
+    def to_dict(self) -> dict:
+        """The row as written: one key per field (``extra`` merged in at the top level)."""
+        row = {f.name: getattr(self, f.name) for f in fields(self) if f.name != "extra"}
+        return {**row, **self.extra}
+
+    @classmethod
+    def from_dict(cls, row: Mapping[str, Any]) -> EpisodeResult:
+        """A row as read by :func:`read_rows`; fields it lacks are ``None``, unknown ones go to ``extra``."""
+        if not isinstance(row, Mapping) or "policy" not in row or "episode_seed" not in row:
+            got = sorted(row) if isinstance(row, Mapping) else type(row).__name__
+            raise ResultsError(f"expected a row with keys 'policy' and 'episode_seed', got {got}: "
+                               f"the row was not written by this benchmark")
+        known = {f.name for f in fields(cls)} - {"extra"}
+        return cls(**{k: v for k, v in row.items() if k in known},
+                   extra={k: v for k, v in row.items() if k not in known})
 
 
 def _plain(value: Any) -> Any:
@@ -54,12 +105,12 @@ def _plain(value: Any) -> Any:
     return value
 
 
-def encode_row(row: Mapping[str, Any]) -> bytes:
+def encode_row(row: Mapping[str, Any] | EpisodeResult) -> bytes:
     """One row as one UTF-8 JSON line, newline included.
 
     Parameters
     ----------
-    row : Mapping[str, Any]
+    row : Mapping[str, Any] or EpisodeResult
         The row. NaN and infinite floats become ``null``; NumPy values become Python values.
 
     Returns
@@ -67,6 +118,8 @@ def encode_row(row: Mapping[str, Any]) -> bytes:
     bytes
         ``json.dumps(row, sort_keys=True, allow_nan=False)`` plus ``b"\\n"``.
     """
+    if isinstance(row, EpisodeResult):
+        row = row.to_dict()
     if not isinstance(row, Mapping):
         raise ResultsError(f"expected a row as a dict, got {type(row).__name__}: pass one dict per episode")
     try:
@@ -93,7 +146,7 @@ def _check_tail(path: Path) -> None:
                            f"(an interrupted write): call hearnav.bench.results.repair() before appending")
 
 
-def append_row(path: str | os.PathLike, row: Mapping[str, Any]) -> None:
+def append_row(path: str | os.PathLike, row: Mapping[str, Any] | EpisodeResult) -> None:
     """Append one row to a JSON-lines file and ``fsync`` it.
 
     Parameters
@@ -128,7 +181,7 @@ class ResultWriter:
         _check_tail(self.path)
         self._fh = open(self.path, "ab")  # unbuffered-enough: one write per row, flushed at once
 
-    def append(self, row: Mapping[str, Any]) -> None:
+    def append(self, row: Mapping[str, Any] | EpisodeResult) -> None:
         """Write one row as one line, flush and ``fsync``."""
         if self._fh is None:
             raise ResultsError(f"{self.path}: expected an open writer, got a closed one: create a new ResultWriter")
@@ -321,26 +374,25 @@ def _fsync_dir(directory: Path) -> None:
         os.close(fd)
 
 
-def write_manifest(directory: str | os.PathLike, manifest: Mapping[str, Any]) -> Path:
-    """Write ``DIR/run.json`` atomically: a temporary file, ``fsync``, then ``os.replace``.
+def write_json(path: str | os.PathLike, data: Mapping[str, Any]) -> Path:
+    """Write a JSON file atomically: a temporary file, ``fsync``, ``os.replace``, then ``fsync`` of the folder.
 
     Parameters
     ----------
-    directory : str or PathLike
-        The run folder; created if missing.
-    manifest : Mapping[str, Any]
-        JSON values; NaN becomes ``null``.
+    path : str or PathLike
+        The file; its folder is created if missing.
+    data : Mapping[str, Any]
+        JSON values, written indented with sorted keys; NaN becomes ``null``.
 
     Returns
     -------
     Path
-        The manifest path.
+        ``path``.
     """
-    directory = Path(directory)
-    directory.mkdir(parents=True, exist_ok=True)
-    target = directory / MANIFEST_FILE
-    tmp = directory / f".{MANIFEST_FILE}.{os.getpid()}.tmp"
-    text = json.dumps(_plain(dict(manifest)), sort_keys=True, indent=2, allow_nan=False) + "\n"
+    target = Path(path)
+    target.parent.mkdir(parents=True, exist_ok=True)
+    tmp = target.parent / f".{target.name}.{os.getpid()}.tmp"
+    text = json.dumps(_plain(dict(data)), sort_keys=True, indent=2, allow_nan=False) + "\n"
     try:
         with open(tmp, "w", encoding="utf-8") as fh:
             fh.write(text)
@@ -350,8 +402,13 @@ def write_manifest(directory: str | os.PathLike, manifest: Mapping[str, Any]) ->
     finally:
         if tmp.exists():
             tmp.unlink()
-    _fsync_dir(directory)
+    _fsync_dir(target.parent)
     return target
+
+
+def write_manifest(directory: str | os.PathLike, manifest: Mapping[str, Any]) -> Path:
+    """Write ``DIR/run.json`` atomically (see :func:`write_json`); returns its path."""
+    return write_json(Path(directory) / MANIFEST_FILE, manifest)
 
 
 def read_manifest(directory: str | os.PathLike) -> dict | None:

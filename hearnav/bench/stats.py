@@ -6,8 +6,8 @@ the interval is a bootstrap over episodes of the per-episode differences, and th
 two-sided Wilcoxon signed-rank test (:func:`scipy.stats.wilcoxon`).
 
 Undefined numbers (a mean of nothing, an interval from fewer than two values) are ``None`` in
-:func:`summarise`, :func:`paired_comparison` and :func:`summary`, so their output is valid JSON;
-:func:`bootstrap_ci` itself returns ``(nan, nan)``.
+:func:`mean_ci`, :func:`paired_comparison` and :func:`summarise` (which makes a :class:`Summary`), so their
+output is valid JSON; :func:`bootstrap_ci` itself returns ``(nan, nan)``.
 """
 
 from __future__ import annotations
@@ -15,16 +15,15 @@ from __future__ import annotations
 import math
 import warnings
 from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 from scipy import stats as _st
 
-from hearnav.bench.results import ResultsError
+from hearnav.bench.results import EpisodeResult, ResultsError
 
 METRICS = ("gain_db", "final_si_sdr_db", "normalized_gain")
-# keys of a summary() that are not policy names
-RESERVED_KEYS = ("comparisons", "reference", "reference_missing")
 
 
 def _clean(values: Iterable[Any]) -> np.ndarray:
@@ -94,7 +93,7 @@ def bootstrap_ci(values: Sequence[float] | np.ndarray, confidence: float = 0.95,
         return run("percentile")
 
 
-def summarise(values: Iterable[Any], seed: int = 0) -> dict:
+def mean_ci(values: Iterable[Any], seed: int = 0) -> dict:
     """Mean and 95 % bootstrap interval of the usable values.
 
     Parameters
@@ -153,45 +152,81 @@ def paired_comparison(a: Sequence[float] | np.ndarray, b: Sequence[float] | np.n
             "n": int(d.size), "wilcoxon_p": _or_none(p) if p is not None else None}
 
 
-def _by_policy(rows: Iterable[Mapping[str, Any]]) -> dict[str, dict[int, Mapping[str, Any]]]:
+@dataclass
+class Summary:
+    """Per-policy results of a run and their paired comparisons with a reference policy (``DIR/summary.json``).
+
+    ``policies`` maps each policy, in order of first appearance, to ``{"episodes", "ok", "failures",
+    "privileged", metric: mean_ci(...), ...}`` (``episodes`` counts every episode, ``ok`` and ``failures``
+    those with that status). ``comparisons`` maps every other policy to ``paired_comparison(policy gain_db,
+    reference gain_db)``; it is empty, and ``reference_missing`` true, when no row is from ``reference``.
+    ``suite``, ``suite_hash`` and ``code_version`` name what produced the rows (``None`` when not known).
+    """
+
+    policies: dict[str, dict] = field(default_factory=dict)
+    comparisons: dict[str, dict] = field(default_factory=dict)
+    reference: str = "still"
+    reference_missing: bool = False
+    suite: str | None = None
+    suite_hash: str | None = None
+    code_version: str | None = None
+
+    @property
+    def failures(self) -> int:
+        """Failed episodes over all policies."""
+        return sum(entry["failures"] for entry in self.policies.values())
+
+    def to_dict(self) -> dict:
+        """The summary as ``DIR/summary.json`` holds it."""
+        return {"suite": self.suite, "suite_hash": self.suite_hash, "code_version": self.code_version,
+                "reference": self.reference, "reference_missing": self.reference_missing,
+                "policies": self.policies, "comparisons": self.comparisons}
+
+    @classmethod
+    def from_dict(cls, data: Mapping[str, Any]) -> Summary:
+        """A summary as read from ``DIR/summary.json``."""
+        missing = [key for key in ("policies", "comparisons", "reference") if key not in data]
+        if missing:
+            raise ResultsError(f"expected a summary with keys 'policies', 'comparisons' and 'reference', got one "
+                               f"without {missing}: read a summary.json written by hearnav bench")
+        return cls(policies=dict(data["policies"]), comparisons=dict(data["comparisons"]),
+                   reference=data["reference"], reference_missing=bool(data.get("reference_missing", False)),
+                   suite=data.get("suite"), suite_hash=data.get("suite_hash"), code_version=data.get("code_version"))
+
+
+def _by_policy(rows: Iterable[Mapping[str, Any] | EpisodeResult]) -> dict[str, dict[int, Mapping[str, Any]]]:
     """Rows grouped by policy then episode seed, in first-appearance order; a later row for a seed wins."""
     grouped: dict[str, dict[int, Mapping[str, Any]]] = {}
     for index, row in enumerate(rows):
+        if isinstance(row, EpisodeResult):
+            row = row.to_dict()
         if "policy" not in row or "episode_seed" not in row:
             raise ResultsError(f"row {index}: expected keys 'policy' and 'episode_seed', got {sorted(row)}: "
                                f"the rows were not written by this benchmark")
-        if str(row["policy"]) in RESERVED_KEYS:
-            raise ResultsError(f"row {index}: expected a policy name other than {', '.join(RESERVED_KEYS)}, "
-                               f"got {row['policy']!r}: register the policy under another name")
         grouped.setdefault(str(row["policy"]), {})[int(row["episode_seed"])] = row
     return grouped
 
 
-def summary(rows: Iterable[Mapping[str, Any]], metrics: Sequence[str] = METRICS, reference: str = "still",
-            seed: int = 0) -> dict:
+def summarise(rows: Iterable[Mapping[str, Any] | EpisodeResult], reference: str = "still",
+              metrics: Sequence[str] = METRICS, seed: int = 0) -> Summary:
     """Per-policy results and paired comparisons against a reference policy.
 
     Parameters
     ----------
-    rows : iterable of dict
+    rows : iterable of dict or EpisodeResult
         Episode rows with ``policy``, ``episode_seed``, ``status`` and, for ``status == "ok"``, the metrics.
         If a policy has several rows for one seed, the last one counts.
-    metrics : sequence of str
-        Metrics to summarise; only rows with ``status == "ok"`` contribute.
     reference : str
         Policy the others are compared with, on ``gain_db``, over seeds both finished ``"ok"``.
+    metrics : sequence of str
+        Metrics to summarise; only rows with ``status == "ok"`` contribute.
     seed : int
         Bootstrap seed.
 
     Returns
     -------
-    dict
-        One entry per policy, in order of first appearance, ``name: {"episodes", "ok", "failures",
-        "privileged", metric: summarise(...), ...}`` (``episodes`` counts every row, ``ok`` and ``failures``
-        those with that status), plus the keys in :data:`RESERVED_KEYS`: ``"comparisons": {name:
-        paired_comparison(policy gain_db, reference gain_db)}``, ``"reference": reference`` and
-        ``"reference_missing"``: true (and ``comparisons`` empty) when no row is from ``reference``.
-        Use :func:`policy_entries` to iterate over the policies alone.
+    Summary
+        Without suite, suite hash and code version (``None``).
     """
     grouped = _by_policy(rows)
     policies: dict[str, dict] = {}
@@ -205,7 +240,7 @@ def summary(rows: Iterable[Mapping[str, Any]], metrics: Sequence[str] = METRICS,
             "privileged": any(bool(r.get("privileged", False)) for r in by_seed.values()),
         }
         for metric in metrics:
-            entry[metric] = summarise((r.get(metric) for r in ok), seed=seed)
+            entry[metric] = mean_ci((r.get(metric) for r in ok), seed=seed)
         policies[name] = entry
 
     comparisons: dict[str, dict] = {}
@@ -218,62 +253,5 @@ def summary(rows: Iterable[Mapping[str, Any]], metrics: Sequence[str] = METRICS,
             a = [by_seed[s].get("gain_db") for s in seeds]
             b = [ref_ok[s].get("gain_db") for s in seeds]
             comparisons[name] = paired_comparison(a, b, seed=seed)
-    return {**policies, "comparisons": comparisons, "reference": reference,
-            "reference_missing": reference not in grouped}
-
-
-def policy_entries(result: Mapping[str, Any]) -> dict[str, dict]:
-    """The per-policy entries of a :func:`summary` (everything but :data:`RESERVED_KEYS`), in order."""
-    return {k: v for k, v in result.items() if k not in RESERVED_KEYS}
-
-
-def _num(x: float | None, fmt: str = "{:.2f}") -> str:
-    return "n/a" if x is None else fmt.format(x)
-
-
-def _mean_ci(s: Mapping[str, Any] | None, mean_key: str = "mean") -> str:
-    if not s or s.get(mean_key) is None:
-        return "n/a"
-    low, high = s["ci95"]
-    return f"{_num(s[mean_key])} [{_num(low)}, {_num(high)}]"
-
-
-def format_table(result: Mapping[str, Any]) -> str:
-    """A plain-text table of a :func:`summary`.
-
-    Columns: policy, privileged, n (episodes finished ``"ok"``), failures, then mean [95 % CI] of
-    gain dB, final SI-SDR dB and normalized gain, then the paired difference in gain dB against the
-    reference (mean [CI]), the number of episode pairs it uses, and its Wilcoxon p-value. Undefined numbers
-    print as ``n/a``.
-
-    Parameters
-    ----------
-    result : dict
-        The output of :func:`summary`.
-
-    Returns
-    -------
-    str
-        Lines separated by ``"\\n"``, no trailing newline.
-    """
-    reference = result.get("reference", "still")
-    header = ["policy", "privileged", "n", "failures", "gain dB", "final SI-SDR dB", "normalized gain",
-              f"vs {reference}: diff dB", "pairs", "p"]
-    body: list[list[str]] = []
-    for name, entry in policy_entries(result).items():
-        comp = result.get("comparisons", {}).get(name)
-        if name == reference:
-            vs, pairs, p = "(reference)", "", ""
-        elif comp is None:
-            vs, pairs, p = "n/a", "0", "n/a"
-        else:
-            vs, pairs = _mean_ci(comp, "mean_difference"), str(comp["n"])
-            p = _num(comp["wilcoxon_p"], "{:.3g}")
-        body.append([name, "yes" if entry["privileged"] else "no", str(entry["ok"]), str(entry["failures"]),
-                     *(_mean_ci(entry.get(m)) for m in METRICS), vs, pairs, p])
-    widths = [max(len(row[i]) for row in [header, *body]) for i in range(len(header))]
-    lines = ["  ".join(cell.ljust(w) for cell, w in zip(row, widths)).rstrip() for row in [header, *body]]
-    lines.insert(1, "  ".join("-" * w for w in widths))
-    if result.get("reference_missing"):
-        lines.append(f"(no rows from reference policy {reference!r}: no comparisons)")
-    return "\n".join(lines)
+    return Summary(policies=policies, comparisons=comparisons, reference=reference,
+                   reference_missing=reference not in grouped)

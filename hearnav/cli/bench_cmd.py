@@ -2,10 +2,7 @@
 
 from __future__ import annotations
 
-import json
-import os
 import sys
-import tempfile
 from pathlib import Path
 
 
@@ -25,65 +22,39 @@ def register(sub) -> None:
     p.set_defaults(run=run)
 
 
-def code_version() -> str:
-    """The hearnav version and response-model version that produced results."""
-    from hearnav import __version__
-    from hearnav.acoustics.settings import MODEL_VERSION
+class _Bars:
+    """Progress of a benchmark run as tqdm bars on stderr, one per stage."""
 
-    return f"{__version__}+model{MODEL_VERSION}"
+    def __init__(self):
+        self.bar = None
 
+    def __call__(self, stage: str, done: int, total: int) -> None:
+        from tqdm import tqdm
 
-def _write_json(path: Path, data: dict) -> None:
-    fd, tmp = tempfile.mkstemp(dir=path.parent, suffix=".tmp")
-    with os.fdopen(fd, "w") as f:
-        json.dump(data, f, indent=2, sort_keys=True)
-        f.flush()
-        os.fsync(f.fileno())
-    os.replace(tmp, path)
+        if done == 0:
+            self.close()
+            self.bar = tqdm(total=total, desc=stage, unit="ep", file=sys.stderr, disable=None)
+        else:
+            self.bar.update(done - self.bar.n)
+
+    def close(self) -> None:
+        if self.bar is not None:
+            self.bar.close()
+            self.bar = None
 
 
 def run(args) -> int:
-    from tqdm import tqdm
+    from hearnav.bench import run as run_bench
+    from hearnav.report import format_table
 
-    from hearnav.acoustics import cache_dir
-    from hearnav.bench import results, stats
-    from hearnav.bench.registry import resolve
-    from hearnav.bench.runner import Task, compute_oracles, run_tasks
-    from hearnav.bench.suites import load_suite
-    from hearnav.errors import ConfigError
-
-    if args.workers < 1:
-        raise ConfigError(f"--workers must be at least 1 (got {args.workers})")
-    if args.save_audio < 0:
-        raise ConfigError(f"--save-audio must be 0 or more (got {args.save_audio})")
-    suite = load_suite(args.suite)
-    for ref in args.policy:  # unknown names fail here, in one line, before any work
-        resolve(ref)
-    out: Path = args.out
-    out.mkdir(parents=True, exist_ok=True)
-    results.check_manifest(out, {"suite": suite.name, "suite_hash": suite.digest(), "code_version": code_version()})
-    rows_path = out / "episodes.jsonl"
-    results.repair(rows_path)
-    done = results.done_keys(results.read_rows(rows_path))
-    seeds = suite.episode_seeds()
-    with tqdm(total=len(seeds), desc="oracle bounds", unit="ep", file=sys.stderr, disable=None) as bar:
-        oracles = compute_oracles(suite, cache_dir() / "oracle", args.workers, progress=bar.update)
-    audio_dir = str(out / "audio") if args.save_audio else None
-    tasks = [Task(ref, k, s, oracles[s], audio_dir if k < args.save_audio else None)
-             for ref in args.policy for k, s in enumerate(seeds) if (ref, s) not in done]
-    with results.ResultWriter(rows_path) as writer, \
-            tqdm(total=len(tasks), desc=f"{suite.name}", unit="ep", file=sys.stderr, disable=None) as bar:
-        for row in run_tasks(suite, tasks, args.workers):
-            writer.append(row)
-            bar.update()
-    rows = results.read_rows(rows_path)
-    summary = stats.summary(rows, reference=args.reference)
-    summary_doc = {"suite": suite.name, "suite_hash": suite.digest(), "code_version": code_version(),
-                   "reference": args.reference, "reference_missing": summary.get("reference_missing", False),
-                   "policies": stats.policy_entries(summary), "comparisons": summary.get("comparisons", {})}
-    _write_json(out / "summary.json", summary_doc)
-    print(stats.format_table(summary))
-    failed = sum(1 for r in rows if r.get("status") == "failed")
+    bars = _Bars()
+    try:
+        summary = run_bench(args.suite, args.policy, args.out, workers=args.workers, reference=args.reference,
+                            save_audio=args.save_audio, progress=bars)
+    finally:
+        bars.close()
+    print(format_table(summary))
+    failed = summary.failures
     if failed:
-        print(f"{failed} episode(s) failed; see the 'error' field in {rows_path}", file=sys.stderr)
+        print(f"{failed} episode(s) failed; see the 'error' field in {args.out / 'episodes.jsonl'}", file=sys.stderr)
     return 1 if failed else 0

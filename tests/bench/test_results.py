@@ -14,8 +14,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from hearnav.bench.results import (ResultsError, ResultWriter, append_row, check_manifest, comparable, done_keys,
-                                   read_manifest, read_rows, repair, write_manifest)
+from hearnav.bench.results import (EpisodeResult, ResultsError, ResultWriter, append_row, check_manifest, comparable,
+                                   done_keys, read_manifest, read_rows, repair, write_manifest)
 from hearnav.errors import HearnavError
 
 REPO = Path(__file__).resolve().parents[2]
@@ -198,3 +198,34 @@ def test_comparable_matches_written_row(tmp_path):
     append_row(path, a)
     b = {**read_rows(path)[0], "wall_time_s": 99.0}
     assert comparable(a) == comparable(b)
+
+
+# A row as hearnav bench wrote it before rows were typed (field names and JSON types of that file format).
+WRITTEN_ROW = {"policy": "random-walk", "privileged": False, "episode_index": 2, "episode_seed": 2900114516,
+               "oracle_si_sdr_db": 3.25, "status": "ok", "error": None, "scene": "maple-flat",
+               "start_si_sdr_db": -12.5, "start_mixture_si_sdr_db": -14.0, "final_si_sdr_db": -10.0,
+               "best_si_sdr_db": -9.5, "gain_db": 2.5, "episode_return": 2.5, "normalized_gain": 0.16,
+               "path_length_m": 1.5, "steps": 20, "collisions": 1,
+               "final_pose": {"cell": 4, "heading": 1, "x": 1.0, "y": 2.5}, "start_xy": [0.5, 2.0],
+               "wall_time_s": 0.75}
+
+
+def test_episode_result_round_trips_through_the_file(tmp_path):
+    result = EpisodeResult.from_dict(WRITTEN_ROW)
+    assert result.extra == {} and result.to_dict() == WRITTEN_ROW  # every field of the format is known
+    path = tmp_path / "episodes.jsonl"
+    with ResultWriter(path) as writer:
+        writer.append(result)
+    assert read_rows(path) == [WRITTEN_ROW]
+    assert EpisodeResult.from_dict(read_rows(path)[0]) == result
+
+
+def test_episode_result_reads_rows_of_other_versions():
+    old = {k: v for k, v in WRITTEN_ROW.items() if k != "start_mixture_si_sdr_db"} | {"note": "x"}
+    result = EpisodeResult.from_dict(old)
+    assert result.start_mixture_si_sdr_db is None and result.extra == {"note": "x"}
+    assert result.to_dict()["note"] == "x" and result.gain_db == 2.5
+    with pytest.raises(ResultsError) as info:
+        EpisodeResult.from_dict({"status": "ok"})
+    assert str(info.value) == ("expected a row with keys 'policy' and 'episode_seed', got ['status']: "
+                               "the row was not written by this benchmark")

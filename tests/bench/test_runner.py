@@ -8,7 +8,10 @@ import numpy as np
 import pytest
 import yaml
 
+from hearnav.bench import run
+from hearnav.bench.stats import Summary
 from hearnav.cli import main
+from hearnav.report import format_table
 from tests.env.conftest import FAST_ACOUSTICS
 
 SUITE = {"name": "tiny", "description": "3 episodes on the test room", "episodes": 3, "seed": 5,
@@ -41,6 +44,7 @@ def _comparable(row):
 def test_rows_summary_and_resume(suite_file, tmp_path, capsys):
     out = tmp_path / "run"
     assert _bench(suite_file, out, "still", "random-walk") == 0
+    printed = capsys.readouterr().out
     rows = _rows(out)
     assert len(rows) == 6 and {r["policy"] for r in rows} == {"still", "random-walk"}
     for field in ("policy", "privileged", "scene", "episode_seed", "start_si_sdr_db", "final_si_sdr_db",
@@ -58,6 +62,9 @@ def test_rows_summary_and_resume(suite_file, tmp_path, capsys):
     # rerunning the same command resumes: nothing is run twice
     assert _bench(suite_file, out, "still", "random-walk") == 0
     assert len(_rows(out)) == 6
+    # the command prints the table of the library's summary, and only that, on stdout
+    assert printed == capsys.readouterr().out == format_table(run(suite_file, ["still", "random-walk"], out)) + "\n"
+    assert format_table(Summary.from_dict(summary)) + "\n" == printed
 
 
 def test_still_has_zero_path_and_the_oracle_bounds_every_final(suite_file, tmp_path):

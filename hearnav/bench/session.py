@@ -1,0 +1,121 @@
+"""Run policies on a suite as a library call: rows in DIR/episodes.jsonl, the summary in DIR/summary.json.
+
+:func:`run` checks the run manifest, repairs a torn last row, skips the episodes already done (resume),
+computes the oracle bounds, runs the remaining episodes and writes the summary. It prints nothing; pass
+``progress`` to follow it.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import os
+from collections.abc import Callable, Sequence
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+from hearnav.bench import results
+from hearnav.errors import ConfigError
+
+if TYPE_CHECKING:  # imported when run, so that importing hearnav.bench stays light
+    from hearnav.bench.stats import Summary
+    from hearnav.bench.suites import Suite
+
+# progress(stage, done, total): called with done == 0 when a stage starts, then after each episode of it
+Progress = Callable[[str, int, int], None]
+ORACLE_STAGE = "oracle bounds"
+
+
+def code_version() -> str:
+    """The hearnav version and response-model version that produced results."""
+    from hearnav import __version__
+    from hearnav.acoustics.settings import MODEL_VERSION
+
+    return f"{__version__}+model{MODEL_VERSION}"
+
+
+def _counter(progress: Progress | None, stage: str, total: int) -> Callable[[], None]:
+    """Announce ``stage`` and return a function that reports one more finished episode of it."""
+    done = 0
+    if progress:
+        progress(stage, 0, total)
+
+    def step() -> None:
+        nonlocal done
+        done += 1
+        if progress:
+            progress(stage, done, total)
+
+    return step
+
+
+def _check_arguments(policies: Sequence[str], workers: int, save_audio: int) -> list[str]:
+    """The policy references as a list, after checking the counts; raises ConfigError."""
+    if isinstance(policies, str):
+        policies = [policies]
+    if not policies:
+        raise ConfigError("expected at least one policy reference, got none: pass e.g. policies=['still']")
+    if workers < 1:
+        raise ConfigError(f"workers (--workers) must be at least 1, got {workers}: use 1 for one process or more")
+    if save_audio < 0:
+        raise ConfigError(f"save_audio (--save-audio) must be 0 or more, got {save_audio}: use 0 to write no audio")
+    return list(policies)
+
+
+def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os.PathLike, workers: int = 1,
+        reference: str = "still", save_audio: int = 0, progress: Progress | None = None) -> Summary:
+    """Run ``policies`` on every episode of ``suite`` not yet in ``out``; write rows and the summary.
+
+    Parameters
+    ----------
+    suite : Suite, str or PathLike
+        A suite, or a bundled suite name (smoke, val, test) or a suite YAML path.
+    policies : sequence of str
+        Policy references: registered names, ``module:attr`` or ``path/to/file.py:attr``.
+    out : str or PathLike
+        The results folder; rerunning into it resumes. It must not hold another suite's or version's results.
+    workers : int
+        Worker processes.
+    reference : str
+        The policy the others are compared with.
+    save_audio : int
+        Write WAVs for the first ``save_audio`` episodes of each policy.
+    progress : callable, optional
+        ``progress(stage, done, total)``; see :data:`Progress`.
+
+    Returns
+    -------
+    Summary
+        What ``out/summary.json`` holds (:meth:`Summary.to_dict`), over every row in ``out``.
+    """
+    from hearnav.acoustics import cache_dir
+    from hearnav.bench.registry import resolve
+    from hearnav.bench.runner import Task, compute_oracles, run_tasks
+    from hearnav.bench.stats import summarise
+    from hearnav.bench.suites import Suite, load_suite
+
+    policies = _check_arguments(policies, workers, save_audio)
+    suite = suite if isinstance(suite, Suite) else load_suite(str(suite))
+    for ref in policies:  # unknown names fail here, in one line, before any work
+        resolve(ref)
+    out = Path(out)
+    out.mkdir(parents=True, exist_ok=True)
+    results.check_manifest(out, {"suite": suite.name, "suite_hash": suite.digest(), "code_version": code_version()})
+    rows_path = out / results.EPISODES_FILE
+    results.repair(rows_path)
+    done = results.done_keys(results.read_rows(rows_path))
+    seeds = suite.episode_seeds()
+    oracles = compute_oracles(suite, cache_dir() / "oracle", workers,
+                              progress=_counter(progress, ORACLE_STAGE, len(seeds)))
+    audio_dir = str(out / "audio") if save_audio else None
+    tasks = [Task(ref, k, s, oracles[s], audio_dir if k < save_audio else None)
+             for ref in policies for k, s in enumerate(seeds) if (ref, s) not in done]
+    step = _counter(progress, suite.name, len(tasks))
+    with results.ResultWriter(rows_path) as writer:
+        for result in run_tasks(suite, tasks, workers):
+            writer.append(result)
+            step()
+    rows = results.read_rows(rows_path)
+    summary = dataclasses.replace(summarise(rows, reference=reference), suite=suite.name,
+                                  suite_hash=suite.digest(), code_version=code_version())
+    results.write_json(out / results.SUMMARY_FILE, summary.to_dict())
+    return summary
