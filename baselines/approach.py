@@ -12,20 +12,18 @@ from collections import deque
 import numpy as np
 
 import hearnav
+from hearnav.env import Action
+from hearnav.physics.geometry import bearing, heading_angles
 
-FORWARD, TURN_LEFT, TURN_RIGHT, STAY = 0, 1, 2, 3
 Pose = tuple[int, int]
 
 
 def facing_heading(view, cell: int) -> int | None:
     """The heading at ``cell`` that points most nearly at the target (None when the target is on the cell)."""
-    d = np.asarray(view.target_xy, float) - np.asarray(view.grid.centers[cell], float)
-    if np.hypot(*d) < 1e-6:
+    dx, dy = np.asarray(view.target_xy, float) - np.asarray(view.grid.centers[cell], float)
+    if np.hypot(dx, dy) < 1e-6:
         return None
-    bearing = np.arctan2(d[1], d[0])
-    n = view.grid.n_headings
-    errors = [abs((bearing - view.grid.heading_angle(h) + np.pi) % (2 * np.pi) - np.pi) for h in range(n)]
-    return int(np.argmin(errors))
+    return int(np.argmin(np.abs(bearing(dx, dy, heading_angles(view.grid.n_headings)))))
 
 
 def plan_path(view, start: Pose) -> list[int]:
@@ -40,7 +38,7 @@ def plan_path(view, start: Pose) -> list[int]:
         if pose[0] == goal_cell and goal_heading in (None, pose[1]):
             found = pose
             break
-        for action in (FORWARD, TURN_LEFT, TURN_RIGHT):
+        for action in (Action.FORWARD, Action.TURN_LEFT, Action.TURN_RIGHT):
             nxt = view.next_pose(pose[0], pose[1], action)
             if nxt not in parent:
                 parent[nxt] = (pose, action)
@@ -74,7 +72,7 @@ class Approach:
             self.plan = plan_path(view, pose)
         if not self.plan:
             self.expected = pose
-            return STAY
+            return Action.STAY
         action = self.plan.pop(0)
         self.expected = view.next_pose(pose[0], pose[1], action)
         return int(action)

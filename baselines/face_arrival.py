@@ -18,9 +18,8 @@ so a GCC-PHAT delay cannot be computed; instead the arrival is found by matching
    straight ahead, then stays for the rest of the episode. It faces the dominant sound: with loud
    distractors or strong reverberation that need not be the target.
 
-Assumed embodiment (class attributes, the environment's defaults): ``fs`` = 16 kHz, bands log-spaced from
-100 Hz to fs/2, head radius 8.75 cm, speed of sound 343 m/s, and a heading step of 90 degrees (4 headings;
-set ``heading_step_deg = 45`` in a subclass for 8). Deterministic.
+The embodiment (sampling rate, band edges, head radius, speed of sound and heading step) is the environment's
+own, read from ``info["embodiment"]`` at reset (:class:`hearnav.env.Embodiment`). Deterministic.
 """
 
 from __future__ import annotations
@@ -30,25 +29,21 @@ from itertools import pairwise
 import numpy as np
 
 import hearnav
+from hearnav.env import Action, Embodiment
+from hearnav.physics.geometry import wrap_angle as wrap
 from hearnav.separation import steering_vector
 
-FORWARD, TURN_LEFT, TURN_RIGHT, STAY = 0, 1, 2, 3
 CANDIDATES = np.deg2rad(np.arange(-180.0, 180.0, 1.0))  # candidate azimuths, counter-clockwise, 0 ahead
-
-
-def wrap(angle: np.ndarray | float) -> np.ndarray:
-    """Angles wrapped to [-pi, pi)."""
-    return (np.asarray(angle) + np.pi) % (2 * np.pi) - np.pi
 
 
 class CueModel:
     """Predicted per-band IPD phasors and ILDs of every candidate azimuth."""
 
-    def __init__(self, n_bands: int, fs: float, radius: float, c: float, per_band: int = 24,
-                 range_db: float = 30.0, ild_weight: float = 0.02):
-        edges = np.geomspace(100.0, fs / 2, n_bands + 1)
+    def __init__(self, body: Embodiment, per_band: int = 24, range_db: float = 30.0, ild_weight: float = 0.02):
+        edges, n_bands = np.asarray(body.band_edges), body.n_bands
         freqs = np.concatenate([np.linspace(lo, hi, per_band, endpoint=False) for lo, hi in pairwise(edges)])
-        d = steering_vector(CANDIDATES, freqs, radius, c).reshape(len(CANDIDATES), n_bands, per_band, 2)
+        d = steering_vector(CANDIDATES, freqs, body.head_radius, body.speed_of_sound)
+        d = d.reshape(len(CANDIDATES), n_bands, per_band, 2)
         cross = (d[..., 0] * np.conj(d[..., 1])).sum(-1)  # (A, B) band-summed L R*
         self.ipd = cross / np.abs(cross)
         power = (np.abs(d) ** 2).sum(-2)  # (A, B, 2)
@@ -80,35 +75,36 @@ class FaceArrival:
     """Estimates the arrival azimuth from interaural cues, resolves front/back with one turn, faces it."""
 
     privileged = False
-    fs = 16000.0
-    head_radius = 0.0875
-    speed_of_sound = 343.0
-    heading_step_deg = 90.0  # one turn: 90 degrees with the default 4 headings (45 with 8)
 
     def __init__(self) -> None:
         self.model: CueModel | None = None
-        self.reset({}, {})
-
-    def reset(self, observation: dict, info: dict) -> None:
+        self.body: Embodiment | None = None
         self.first: float | None = None  # the frontal hypothesis before the turn
-        self.turns: list[int] = []  # the remaining turns towards the source
+        self.turns: list[Action] = []  # the remaining turns towards the source
         self.resolved = False
 
+    def reset(self, observation: dict, info: dict) -> None:
+        body = info.get("embodiment")
+        if not isinstance(body, Embodiment):
+            raise hearnav.PolicyError(f"face-arrival needs info['embodiment'] at reset (expected an Embodiment, "
+                                      f"got {type(body).__name__}); reset it with the info of HearNavEnv.reset")
+        if body != self.body:
+            self.body, self.model = body, CueModel(body)
+        self.first, self.turns, self.resolved = None, [], False
+
     def act(self, observation: dict, info: dict) -> int:
-        binaural = np.asarray(observation["binaural"], float)
-        n_bands = binaural.shape[-1]
-        if self.model is None or self.model.ipd.shape[1] != n_bands:
-            self.model = CueModel(n_bands, self.fs, self.head_radius, self.speed_of_sound)
-        match = self.model.match(binaural)
+        if self.model is None:
+            raise hearnav.PolicyError("face-arrival acted before reset (expected reset(observation, info) first)")
+        match = self.model.match(np.asarray(observation["binaural"], float))
         if self.first is None:  # step 1: the best frontal azimuth, then turn left to test it
             front = np.abs(CANDIDATES) <= np.pi / 2
             self.first = float(CANDIDATES[front][int(np.argmax(match[front]))])
-            return TURN_LEFT
+            return Action.TURN_LEFT
         if not self.resolved:  # step 2: which hypothesis predicts what the turn changed
             self.resolved = True
-            step = np.deg2rad(self.heading_step_deg)
+            step = self.body.heading_step
             options = [float(wrap(h - step)) for h in (self.first, np.pi - self.first)]  # front, back
             azimuth = max(options, key=lambda a: score_at(match, a))
             k = int(np.round(azimuth / step))
-            self.turns = [TURN_LEFT if k > 0 else TURN_RIGHT] * abs(k)
-        return self.turns.pop(0) if self.turns else STAY
+            self.turns = [Action.TURN_LEFT if k > 0 else Action.TURN_RIGHT] * abs(k)
+        return self.turns.pop(0) if self.turns else Action.STAY

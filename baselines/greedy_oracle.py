@@ -9,9 +9,10 @@ from __future__ import annotations
 import numpy as np
 
 import hearnav
+from hearnav.env import Action
 
 # Tie order: stay first, then forward, left, right (np.argmax keeps the first maximum).
-ORDER = (3, 0, 1, 2)
+ORDER = (Action.STAY, Action.FORWARD, Action.TURN_LEFT, Action.TURN_RIGHT)
 
 
 @hearnav.register_policy("greedy-oracle")

@@ -9,8 +9,8 @@ from __future__ import annotations
 import numpy as np
 
 import hearnav
+from hearnav.env import Action
 
-FORWARD, TURN_LEFT, TURN_RIGHT, STAY = 0, 1, 2, 3
 
 
 @hearnav.register_policy("random-walk")
@@ -29,5 +29,5 @@ class RandomWalk:
         occupancy = observation["map"][0]  # egocentric: row 0 ahead, column 0 left; 1 = not navigable
         half = occupancy.shape[0] // 2
         blocked = occupancy[half - 1, half] >= 0.5  # the cell just ahead of the listener
-        actions = [TURN_LEFT, TURN_RIGHT, STAY] if blocked else [FORWARD, TURN_LEFT, TURN_RIGHT, STAY]
+        actions = [Action.TURN_LEFT, Action.TURN_RIGHT, Action.STAY] if blocked else list(Action)
         return int(self.rng.choice(actions))

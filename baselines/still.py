@@ -3,8 +3,8 @@
 from __future__ import annotations
 
 import hearnav
+from hearnav.env import Action
 
-STAY = 3  # the environment's "stay" action
 
 
 @hearnav.register_policy("still")
@@ -17,4 +17,4 @@ class Still:
         pass
 
     def act(self, observation: dict, info: dict) -> int:
-        return STAY
+        return Action.STAY

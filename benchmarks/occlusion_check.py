@@ -16,7 +16,7 @@ def main() -> None:
     parser.add_argument("--per-spot", type=int, default=3)
     args = parser.parse_args()
     from hearnav.acoustics import AcousticSettings
-    from hearnav.env.occlusion import check_scene
+    from occlusion import check_scene
     from hearnav.env.worlds import get_world
     from hearnav.scene.library import scene_names
 

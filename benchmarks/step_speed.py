@@ -42,7 +42,7 @@ def run_episodes(env, seeds: list[int]) -> tuple[float, int, list]:
             _, _, _, truncated, _ = env.step(action)
             spent += time.perf_counter() - t0
             steps += 1
-            record.append((env.world, env._session.sources, env.cell, env.heading, env._session.time - env.window))
+            record.append((env.world, env.sources, env.cell, env.heading, env.heard.window.start))
     return spent, steps, record
 
 
@@ -86,8 +86,8 @@ def resim_time(env, n_steps: int) -> float:
         room_mod.configure(settings)
         room = pra.Room(room_mod.room_walls(scene), fs=settings.fs, max_order=settings.ism_order, ray_tracing=True)
         room.set_ray_tracing(receiver_radius=settings.receiver_radius)
-        for src, sig in zip(env.plan.sources, env._session.sources):
-            room.add_source(scene.spots[src.spot].position, signal=sig.signal[: env.window * 2])
+        for src, sig in zip(env.plan.sources, env.sources):
+            room.add_source(scene.spots[src.spot].position, signal=sig.signal[: env.window_len * 2])
         room.add_microphone_array(ears.T)
         room.simulate()
         total += time.perf_counter() - t0

@@ -15,7 +15,7 @@ import tempfile
 from collections import deque
 from pathlib import Path
 
-from hearnav.env.core import STAY, HearNavEnv
+from hearnav.env import Action, HearNavEnv
 
 
 def reachable(view, start: tuple[int, int], steps: int) -> list[tuple[int, int]]:
@@ -26,7 +26,7 @@ def reachable(view, start: tuple[int, int], steps: int) -> list[tuple[int, int]]
         pose = queue.popleft()
         if seen[pose] == steps:
             continue
-        for action in range(4):
+        for action in Action:
             nxt = view.next_pose(*pose, action)
             if nxt not in seen:
                 seen[nxt] = seen[pose] + 1
@@ -39,7 +39,7 @@ def oracle_bound(env: HearNavEnv, episode_seed: int) -> float:
     env.reset(seed=episode_seed)
     start = (env.cell, env.heading)
     for _ in range(env.config.budget - 1):  # advance time to the final window without moving
-        env.step(STAY)
+        env.step(Action.STAY)
     view = env.privileged
     best = -float("inf")
     for pose in reachable(view, start, env.config.budget):

@@ -3,29 +3,33 @@
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from typing import Any
 
 import gymnasium as gym
 import numpy as np
 from gymnasium import spaces
 
+from hearnav.env.actions import ACTION_NAMES, Action, next_pose
 from hearnav.env.config import EnvConfig, make_config
+from hearnav.env.embodiment import Embodiment
 from hearnav.env.episode import (
     EpisodePlan,
     check_category,
     draw_episode,
     render_signals,
 )
-from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor
+from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor, band_edges
+from hearnav.env.privileged import PrivilegedView
 from hearnav.env.worlds import World, get_views, get_world, resolve_scenes
-from hearnav.errors import ConfigError, HearnavError, SeparatorError
+from hearnav.errors import ConfigError, HearnavError
 from hearnav.listening import FADE_S, ListeningSession, Source, Window
 from hearnav.separation import SeparationContext, get_separator
 from hearnav.separation.metrics import si_sdrs_unchecked
 from hearnav.separation.stft import stft
 
-FORWARD, TURN_LEFT, TURN_RIGHT, STAY = 0, 1, 2, 3
-ACTION_NAMES = ("forward", "turn-left", "turn-right", "stay")
+__all__ = ["ACTION_NAMES", "Action", "HearNavEnv", "Heard", "InvalidActionError", "scored_part"]
+
 MAX_DISTANCE = 50.0
 #: Windows the start may be delayed by while the target is silent.
 MAX_LEAD_IN = 4
@@ -46,24 +50,21 @@ def scored_part(window: Window, fade: int) -> Window:
     return window.part(fade)
 
 
-def _scores(separator: str, reference: np.ndarray, *estimates: np.ndarray) -> list[float | None]:
-    """SI-SDR in dB of each estimate against one reference, or None for each when the reference is silent.
-
-    Raises
-    ------
-    SeparatorError
-        The first estimate (the separator's) is not finite.
-    """
+def _scores(reference: np.ndarray, *estimates: np.ndarray) -> list[float | None]:
+    """SI-SDR in dB of each (finite) estimate against one reference, or None for each when the reference is
+    silent."""
     scores = si_sdrs_unchecked(*estimates, reference=reference, silent=SILENT_ENERGY)
-    if scores is None:
-        scores = [None] * len(estimates)
-        finite = bool(np.isfinite(estimates[0]).all())
-    else:
-        finite = math.isfinite(scores[0])  # a NaN or infinite sample makes the inner products, so the score, NaN
-    if not finite:
-        raise SeparatorError(f"separator {separator!r} must return a finite ({reference.shape[-1]},) estimate, "
-                             f"got {int(np.sum(~np.isfinite(estimates[0])))} NaN or infinite samples")
-    return scores
+    return [None] * len(estimates) if scores is None else scores
+
+
+@dataclass(frozen=True)
+class Heard:
+    """The last window heard: the whole window (its cross-fade included), its scored part and the separator's
+    (m,) estimate of the target over that part."""
+
+    window: Window
+    scored: Window
+    estimate: np.ndarray
 
 
 class HearNavEnv(gym.Env):
@@ -76,7 +77,7 @@ class HearNavEnv(gym.Env):
     reference (the target's dry signal delayed and scaled by its earliest path at the head centre).
 
     ## Action space
-    ``Discrete(4)``:
+    ``Discrete(4)``, the values of :class:`hearnav.env.actions.Action`:
 
     | action | meaning |
     |---|---|
@@ -115,7 +116,8 @@ class HearNavEnv(gym.Env):
     Never terminated; truncated after ``budget`` steps.
 
     ## Info
-    ``si_sdr_db`` (separator), ``mixture_si_sdr_db`` (the unprocessed ear nearer the target: the input
+    At reset, ``embodiment`` (:class:`hearnav.env.embodiment.Embodiment`: sampling rate, window, headings, head
+    radius, speed of sound, band edges, STFT; also ``env.unwrapped.embodiment``). At reset and every step, ``si_sdr_db`` (separator), ``mixture_si_sdr_db`` (the unprocessed ear nearer the target: the input
     reference), ``pose`` (cell, x, y, heading index and degrees), ``collided``, ``target_active``, ``step``,
     ``scene`` and ``sources`` (role, spot, category, pool, voice, take, level). No wall-clock values.
     A window in which the target is silent (an alarm's pause) has no SI-SDR: ``target_active`` is False and
@@ -152,10 +154,16 @@ class HearNavEnv(gym.Env):
         self._ear = get_separator("ear")
         self.scene_names = resolve_scenes(cfg.scenes, cfg.procedural_pool)
         self.fs = cfg.acoustics.fs
-        self.window = int(round(cfg.hop_s * self.fs))
+        self.window_len = int(round(cfg.hop_s * self.fs))
         self._fade = int(round(FADE_S * self.fs))
         self._stft = (SeparationContext.n_fft, SeparationContext.hop)
-        self.features = FeatureExtractor(self.fs, self.window - self._fade, cfg.n_bands, cfg.n_segments, *self._stft)
+        self.embodiment = Embodiment(fs=self.fs, window_len=self.window_len, fade_len=self._fade,
+                                     n_headings=cfg.acoustics.n_headings, head_radius=cfg.acoustics.head_radius,
+                                     speed_of_sound=cfg.acoustics.speed_of_sound,
+                                     band_edges=tuple(band_edges(self.fs, cfg.n_bands).tolist()), n_fft=self._stft[0],
+                                     hop=self._stft[1])
+        self.features = FeatureExtractor(self.fs, self.window_len - self._fade, cfg.n_bands, cfg.n_segments,
+                                         *self._stft)
         seg, bands = self.features.shape
         lo, hi = LEVEL_DB
         level = lambda n: spaces.Box(lo, hi, (n, seg, bands), np.float32)  # noqa: E731
@@ -182,15 +190,10 @@ class HearNavEnv(gym.Env):
         super().reset(seed=seed)
         rng = self.np_random
         name = self.scene_names[int(rng.integers(len(self.scene_names)))]
-        self.world = get_world(name, self.config.acoustics, self.window)
+        self.world = get_world(name, self.config.acoustics, self.window_len)
         self.plan = draw_episode(rng, self.config, name, self.world.scene, self.world.grid)
-        return self._begin()
-
-    def start(self, plan: EpisodePlan):
-        """Start a given episode plan (as the benchmark does) instead of drawing one; returns (obs, info)."""
-        self.world = get_world(plan.scene, self.config.acoustics, self.window)
-        self.plan = plan
-        return self._begin()
+        obs, info = self._begin()
+        return obs, {**info, "embodiment": self.embodiment}
 
     def _begin(self):
         world, plan = self.world, self.plan
@@ -225,7 +228,7 @@ class HearNavEnv(gym.Env):
             raise InvalidActionError(f"action must be an integer in [0, 3] ({', '.join(ACTION_NAMES)}), "
                                      f"got {action!r}")
         before = self.si_sdr_db
-        collided = self._act(int(action))
+        self.cell, self.heading, collided = next_pose(self.world.grid, self.cell, self.heading, int(action))
         self.steps += 1
         self._path.append((self.cell, self.heading))
         self._hear(collided)
@@ -235,32 +238,19 @@ class HearNavEnv(gym.Env):
         truncated = self.steps >= self.config.budget
         return self._obs(), float(reward), False, bool(truncated), self._info()
 
-    def _act(self, action: int) -> bool:
-        grid = self.world.grid
-        if action == FORWARD:
-            nxt = grid.forward(self.cell, self.heading)
-            if nxt < 0:
-                return True
-            self.cell = nxt
-        elif action == TURN_LEFT:
-            self.heading = (self.heading + 1) % grid.n_headings
-        elif action == TURN_RIGHT:
-            self.heading = (self.heading - 1) % grid.n_headings
-        return False
-
     def _hear(self, collided: bool) -> None:
         """Listen to the next window; a window in which the target is silent keeps the previous scores."""
-        self._window = self._session.listen(self.cell, self.heading)
+        window = self._session.listen(self.cell, self.heading)
         self.collided = collided
         self._bearing = self.target_bearing(self.cell, self.heading)
-        scored = scored_part(self._window, self._fade)
+        scored = scored_part(window, self._fade)
         self._spec = stft(scored.mixture, *self._stft)  # shared by the separator and the features
         self._spec.flags.writeable = False
         ctx = self.context(self.cell, self.heading, scored, known_stft=(scored.mixture, self._spec))
-        estimate = self._separate(scored, ctx)
-        self._estimate = estimate
+        estimate = self.separator(scored.mixture, ctx, trusted=True)
+        self._heard = Heard(window, scored, estimate)
         self._estimate_spec = ctx.spectrum_of(estimate)
-        score, ear = _scores(self.separator.name, scored.reference, estimate, self._ear.fn(scored.mixture, ctx))
+        score, ear = _scores(scored.reference, estimate, self._ear(scored.mixture, ctx, trusted=True))
         self.target_active = score is not None
         if score is not None:
             self.si_sdr_db, self.mixture_si_sdr_db = score, ear
@@ -292,17 +282,25 @@ class HearNavEnv(gym.Env):
 
     def _score_scored(self, window: Window, ctx: SeparationContext) -> tuple[np.ndarray, float | None]:
         """:meth:`score_window` of a window already cut to its scored part."""
-        estimate = self._separate(window, ctx)
-        return estimate, _scores(self.separator.name, window.reference, estimate)[0]
+        estimate = self.separator(window.mixture, ctx, trusted=True)  # our own finite mixture and context
+        return estimate, _scores(window.reference, estimate)[0]
 
-    def _separate(self, window: Window, ctx: SeparationContext) -> np.ndarray:
-        """The separator's (n,) float32 estimate of a scored window, its shape checked (:func:`_scores` checks
-        that it is finite)."""
-        estimate = np.asarray(self.separator.fn(window.mixture, ctx), np.float32)  # our own input: no re-checks
-        if estimate.shape != (window.mixture.shape[1],):
-            raise SeparatorError(f"separator {self.separator.name!r} must return a finite "
-                                 f"({window.mixture.shape[1]},) estimate, got shape {estimate.shape}")
-        return estimate
+    def peek(self, cell: int, heading: int) -> Window:
+        """The window the next step will hear, as heard at any pose (no cross-fade; nothing moves or advances).
+
+        Privileged: reference policies reach it through :attr:`privileged`.
+        """
+        return self._session.peek(cell, heading)
+
+    @property
+    def sources(self) -> list[Source]:
+        """The episode's sources, the target first: spots and dry signals (privileged)."""
+        return list(self._session.sources)
+
+    @property
+    def heard(self) -> Heard:
+        """The last window heard and the separator's estimate over its scored part (privileged)."""
+        return self._heard
 
     # -- observation -----------------------------------------------------------------------------------------
 
@@ -311,7 +309,7 @@ class HearNavEnv(gym.Env):
         if self._estimate_spec is not None:  # the separator synthesised through the context (every built-in)
             binaural, estimate = self.features.observe(self._spec, self._estimate_spec)
         else:
-            binaural, estimate = self.features.binaural(self._spec), self.features.mono_signal(self._estimate)
+            binaural, estimate = self.features.binaural(self._spec), self.features.mono_signal(self._heard.estimate)
         return {
             "binaural": binaural,
             "estimate": estimate,
@@ -342,10 +340,8 @@ class HearNavEnv(gym.Env):
     # -- privileged access and rendering ---------------------------------------------------------------------
 
     @property
-    def privileged(self):
+    def privileged(self) -> PrivilegedView:
         """Privileged answers for reference policies (not part of the observation)."""
-        from hearnav.env.privileged import PrivilegedView
-
         return PrivilegedView(self)
 
     @property

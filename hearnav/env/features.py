@@ -25,10 +25,15 @@ LOW_HZ = 100.0
 _POWER_FLOOR = 1e-12
 
 
+def band_edges(fs: float, n_bands: int) -> np.ndarray:
+    """(B + 1,) edges in Hz of ``n_bands`` log-spaced bands from 100 Hz to fs/2."""
+    return np.geomspace(LOW_HZ, fs / 2, n_bands + 1)
+
+
 def band_matrix(n_fft: int, fs: float, n_bands: int) -> np.ndarray:
-    """(F, B) 0/1 assignment of rfft bins to log-spaced bands from 100 Hz to fs/2 (each band >= 1 bin)."""
+    """(F, B) 0/1 assignment of rfft bins to the bands of :func:`band_edges` (each band >= 1 bin)."""
     freqs = stft_freqs(n_fft, fs)
-    edges = np.geomspace(LOW_HZ, fs / 2, n_bands + 1)
+    edges = band_edges(fs, n_bands)
     idx = np.clip(np.searchsorted(edges, freqs, side="right") - 1, 0, n_bands - 1)
     m = np.zeros((freqs.size, n_bands), np.float32)
     m[np.arange(freqs.size), idx] = 1.0

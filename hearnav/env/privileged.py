@@ -2,20 +2,26 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
 
-from hearnav.env import core
+from hearnav.env.actions import next_pose
+
+if TYPE_CHECKING:
+    from hearnav.env.core import HearNavEnv
 
 
 class PrivilegedView:
     """What the environment knows and the agent does not.
 
-    Every answer is marked privileged: a policy that uses it is a reference, not an agent.
+    Every answer is marked privileged: a policy that uses it is a reference, not an agent. The view reads the
+    environment only through its public methods.
     """
 
     privileged = True
 
-    def __init__(self, env: core.HearNavEnv):
+    def __init__(self, env: HearNavEnv):
         self._env = env
 
     @property
@@ -40,16 +46,8 @@ class PrivilegedView:
         return self._env.config.budget - self._env.steps
 
     def next_pose(self, cell: int, heading: int, action: int) -> tuple[int, int]:
-        """The pose an action leads to (a blocked forward move keeps the pose)."""
-        grid = self.grid
-        if action == core.FORWARD:
-            nxt = grid.forward(cell, heading)
-            return (cell if nxt < 0 else nxt), heading
-        if action == core.TURN_LEFT:
-            return cell, (heading + 1) % grid.n_headings
-        if action == core.TURN_RIGHT:
-            return cell, (heading - 1) % grid.n_headings
-        return cell, heading
+        """The pose an action leads to (a blocked forward move keeps the pose): :func:`hearnav.env.actions.next_pose`."""
+        return next_pose(self.grid, cell, heading, action)[:2]
 
     def score(self, cell: int, heading: int) -> float:
         """The separator's SI-SDR (dB) at a pose for the window the next step will hear, without moving.
@@ -63,8 +61,7 @@ class PrivilegedView:
     def score_or_none(self, cell: int, heading: int) -> float | None:
         """:meth:`score`, or None where the target is silent in that window."""
         env = self._env
-        window = env._session.peek(cell, heading)
-        return env.score_window(window, cell, heading)[1]
+        return env.score_window(env.peek(cell, heading), cell, heading)[1]
 
     def scores(self, poses: list[tuple[int, int]]) -> np.ndarray:
         """:meth:`score` of several poses, (len(poses),)."""
@@ -73,9 +70,6 @@ class PrivilegedView:
     def last_window(self) -> dict[str, np.ndarray]:
         """What was heard in the last window: the binaural mixture (2, n), and over its scored part the
         separator's estimate (m,) and the target reference (m,)."""
-        env = self._env
-        from hearnav.env.core import scored_part
-
-        scored = scored_part(env._window, env._fade)
-        return {"mixture": env._window.mixture.copy(), "estimate": np.asarray(env._estimate).copy(),
-                "reference": scored.reference.copy()}
+        heard = self._env.heard
+        return {"mixture": heard.window.mixture.copy(), "estimate": np.asarray(heard.estimate).copy(),
+                "reference": heard.scored.reference.copy()}

@@ -26,7 +26,8 @@ def _rollout(env, seed, n=6):
 
 
 def test_registered_on_import():
-    # gymnasium 1.x does not load entry points: importing hearnav registers the id (shared REFERENCES.md).
+    # gymnasium 1.0 dropped the loading of plug-in entry points (its 1.0.0 release notes; gymnasium/envs/
+    # registration.py has no plug-in loader), so importing hearnav registers the id itself.
     assert hearnav.ENV_ID == ENV_ID == "hearnav/HearNav-v0"
     assert ENV_ID in gym.registry
 
@@ -45,7 +46,8 @@ def test_stable_baselines3_env_checker(make_env):
 
 
 def test_types_and_spaces(make_env):
-    # SB3's checker wants a Python float reward and Python bool flags (shared REFERENCES.md).
+    # SB3's checker wants a float reward and bool flags (stable_baselines3/common/env_checker.py,
+    # _check_returned_values: isinstance(reward, (float, int)), isinstance(terminated, bool)).
     env = make_env()
     obs, info = env.reset(seed=0)
     assert env.observation_space.contains(obs)
@@ -111,10 +113,12 @@ def test_moves_turns_and_collisions(make_env):
 def test_info_contents(make_env):
     env = make_env()
     _, info = env.reset(seed=2)
-    assert set(info) == {"si_sdr_db", "mixture_si_sdr_db", "pose", "collided", "target_active", "step", "scene",
-                         "sources"}
+    keys = {"si_sdr_db", "mixture_si_sdr_db", "pose", "collided", "target_active", "step", "scene", "sources"}
+    assert set(info) == keys | {"embodiment"}
+    assert info["embodiment"] is env.embodiment
     assert info["sources"][0]["role"] == "target" and 2 <= len(info["sources"]) <= 4
     assert not any("time" in key for key in info)
+    assert set(env.step(3)[-1]) == keys
 
 
 def test_start_is_far_enough_from_the_target(make_env):
@@ -211,7 +215,7 @@ def test_estimate_levels_from_the_output_spectrum_match_the_estimates_own(make_e
         env.reset(seed=seed)
         for action in (0, 1, 3):
             obs, *_ = env.step(action)
-            own = env.features.mono_signal(env._estimate)
+            own = env.features.mono_signal(env.heard.estimate)
             assert env._estimate_spec is not None
             loud = own > LEVEL_DB[0] + 20
             diffs.append(np.abs(obs["estimate"] - own)[loud])
@@ -227,7 +231,7 @@ def test_a_separator_without_the_context_synthesis_gets_levels_of_its_estimate(m
         env = make_env(separator="left-ear-test")
         obs, _ = env.reset(seed=1)
         assert env._estimate_spec is None
-        np.testing.assert_array_equal(obs["estimate"], env.features.mono_signal(env._estimate))
+        np.testing.assert_array_equal(obs["estimate"], env.features.mono_signal(env.heard.estimate))
         np.testing.assert_allclose(obs["estimate"][0], obs["binaural"][0], atol=1e-4)  # it is the left ear
     finally:
         unregister_separator("left-ear-test")

@@ -5,10 +5,9 @@ import pytest
 import yaml
 
 from hearnav.env import HearNavEnv
-from hearnav.env.occlusion import check_scene
+from benchmarks.occlusion import check_scene
 from hearnav.env.worlds import get_world
-from hearnav.acoustics import AcousticSettings
-from hearnav.scene.library import clear_cache, scene_names
+from hearnav.scene.library import clear_cache
 from tests.conftest import shoebox_dict
 
 
@@ -40,15 +39,15 @@ def test_steering_at_the_target_beats_the_mixture_in_free_field(anechoic_pair, s
 
 
 @pytest.mark.slow
-def test_stepping_into_line_of_sight_helps_in_most_hand_made_cases():
+def test_stepping_into_line_of_sight_helps_in_most_hand_made_cases(fast_settings):
     # Geometric acoustics (common practice): the direct path carries the target's least distorted copy, so
     # moving from a cell where it is blocked to a neighbour where it is not raises the default separator's
-    # SI-SDR in most cases. Over every bundled scene with such moves (benchmarks/occlusion_check.py prints the
-    # fraction; measured 64 % of 158 moves, median gain +4.1 dB, with delay-and-sum).
-    settings = AcousticSettings()
+    # SI-SDR in most cases. benchmarks/occlusion_check.py runs it over every bundled scene at full settings
+    # (measured 64 % of 158 moves, median gain +4.1 dB, with delay-and-sum). Here: the three bundled scenes
+    # with such moves that build fastest, at the fast test settings (measured 67 % of 27 moves, median +2.9 dB).
     rng = np.random.default_rng(2026)
     results = []
-    for name in scene_names():
-        results += check_scene(get_world(name, settings, 8000), rng, "delay-and-sum")
-    assert len(results) >= 30
+    for name in ("elm-bay-flat", "rowan-kitchen", "maple-flat"):
+        results += check_scene(get_world(name, fast_settings, 8000), rng, "delay-and-sum")
+    assert len(results) >= 20
     assert np.mean([r.gain_db > 0 for r in results]) > 0.5

@@ -1,4 +1,4 @@
-"""Does stepping into the target's line of sight help the separator? A check over real scenes.
+"""Does stepping into the target's line of sight help the separator? The experiment behind occlusion_check.py.
 
 For a target spot, every move between neighbouring cells from one where the direct path is blocked to one
 where it is not is a candidate. Each candidate is scored on the same window at both cells, facing the target
@@ -14,6 +14,7 @@ import numpy as np
 from hearnav import sounds
 from hearnav.env.worlds import World
 from hearnav.listening import Source
+from hearnav.physics.geometry import bearing, heading_angles
 from hearnav.separation import SeparationContext, get_separator, si_sdr
 
 
@@ -41,11 +42,10 @@ def occlusion_moves(world: World, spot: int) -> list[tuple[int, int]]:
 
 def _facing(world: World, cell: int, xy: np.ndarray) -> tuple[int, float]:
     """The heading nearest the direction of ``xy`` and the remaining bearing (radians)."""
-    d = xy - world.grid.centers[cell]
-    angle = np.arctan2(d[1], d[0])
-    h = int(np.round(angle / (2 * np.pi) * world.grid.n_headings)) % world.grid.n_headings
-    bearing = (angle - world.grid.heading_angle(h) + np.pi) % (2 * np.pi) - np.pi
-    return h, float(bearing)
+    dx, dy = xy - world.grid.centers[cell]
+    bearings = bearing(dx, dy, heading_angles(world.grid.n_headings))
+    h = int(np.argmin(np.abs(bearings)))
+    return h, float(bearings[h])
 
 
 def check_scene(world: World, rng: np.random.Generator, separator: str, per_spot: int = 3) -> list[OcclusionResult]:
@@ -69,7 +69,7 @@ def check_scene(world: World, rng: np.random.Generator, separator: str, per_spot
             scores = []
             for cell in moves[k]:
                 heading, bearing = _facing(world, cell, xy)
-                win = lw.render(cell, heading, srcs, lw.warmup)
+                win = lw.mix(cell, heading, srcs, lw.warmup)
                 est = sep(win.mixture[:, : lw.window_len], SeparationContext(fs=fs, azimuth=bearing))
                 scores.append(si_sdr(est, win.reference[: lw.window_len]))
             out.append(OcclusionResult(world.scene.name, world.scene.spots[spot].name, *moves[k], *scores))

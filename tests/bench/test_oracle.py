@@ -1,0 +1,59 @@
+"""The oracle bound: its reachable poses counted by hand, and the bound against brute force."""
+
+import itertools
+import json
+
+import numpy as np
+import pytest
+
+from hearnav.bench.oracle import OracleCache, oracle_bound, reachable
+from hearnav.env import Action, next_pose
+from tests.env.test_actions import Corridor
+
+
+class CorridorView:
+    """The part of the privileged view that reachable() uses, on the hand-made corridor."""
+
+    def next_pose(self, cell, heading, action):
+        return next_pose(Corridor(), cell, heading, action)[:2]
+
+
+# Worked by hand from cell 0 facing +x along a 5-cell corridor with 4 headings (0 +x, 1 +y, 2 -x, 3 -y):
+# each step adds the poses one action away from the previous ones; forward only moves along x.
+BY_HAND = {
+    0: {(0, 0)},
+    1: {(0, 0), (1, 0), (0, 1), (0, 3)},
+    2: {(0, 0), (1, 0), (0, 1), (0, 3), (2, 0), (1, 1), (1, 3), (0, 2)},
+    3: {(0, 0), (1, 0), (0, 1), (0, 3), (2, 0), (1, 1), (1, 3), (0, 2), (3, 0), (2, 1), (2, 3), (1, 2)},
+}
+
+
+@pytest.mark.parametrize("steps", sorted(BY_HAND))
+def test_reachable_poses_match_a_hand_count(steps):
+    assert sorted(reachable(CorridorView(), (0, 0), steps)) == sorted(BY_HAND[steps])
+
+
+def test_the_bound_is_the_best_of_every_action_sequence(make_env):
+    # Brute force: with a budget of 3, play all 4^3 action sequences; the best final score must equal the
+    # bound, which the oracle finds by breadth-first search over poses instead (scores are path-independent
+    # because windows are scored after their cross-fade).
+    env = make_env(budget=3)
+    finals = []
+    for actions in itertools.product(list(Action), repeat=3):
+        env.reset(seed=11)
+        for a in actions:
+            *_, info = env.step(a)
+        finals.append(info["si_sdr_db"])
+    bound = oracle_bound(env, 11)
+    assert bound == pytest.approx(max(finals), abs=1e-9)
+
+
+def test_cache_round_trips_and_rewrites_atomically(tmp_path):
+    cache = OracleCache(tmp_path, "abc")
+    cache.put(3, 1.25)
+    cache.put(4, -2.5)
+    assert json.loads((tmp_path / "oracle-abc.json").read_text()) == {"3": 1.25, "4": -2.5}
+    again = OracleCache(tmp_path, "abc")
+    assert (again.get(3), again.get(4), again.get(5)) == (1.25, -2.5, None)
+    assert not list(tmp_path.glob("*.tmp"))
+    assert np.isfinite(again.get(3))
