@@ -1,7 +1,7 @@
 """The benchmark: the policy protocol and registry, and :func:`run`, which runs policies on a suite."""
 
 from hearnav.bench.policy import Policy, SB3Policy, as_policy, is_privileged
-from hearnav.bench.registry import policy_names, register_policy, resolve
+from hearnav.bench.registry import policy_names, register_policy, load_policy
 from hearnav.bench.results import EpisodeResult
 from hearnav.bench.session import code_version, run
 
@@ -15,4 +15,4 @@ def __getattr__(name: str):
 
 
 __all__ = ["EpisodeResult", "Policy", "SB3Policy", "Summary", "as_policy", "code_version", "is_privileged",
-           "policy_names", "register_policy", "resolve", "run", "summarise"]
+           "policy_names", "register_policy", "load_policy", "run", "summarise"]

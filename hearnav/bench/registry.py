@@ -1,7 +1,8 @@
 """Policy registration: a decorator, the ``hearnav.policies`` entry-point group, and command-line references.
 
 A command-line reference is a registered name, ``module:attr``, or ``path/to/file.py:attr``. The bundled
-baselines are the files in the repository's ``baselines/`` folder, loaded like user files.
+baselines are the files of the package data's ``baselines/`` folder (:mod:`hearnav.bundled`), loaded like
+user files.
 """
 
 from __future__ import annotations
@@ -10,28 +11,23 @@ import importlib
 import importlib.util
 import sys
 from collections.abc import Callable
-from importlib.metadata import entry_points
 from pathlib import Path
 from typing import Any
 
 from hearnav.bench.policy import as_policy
-from hearnav.errors import PolicyError, unknown_name
+from hearnav import bundled
+from hearnav.errors import PolicyError
+from hearnav.plugins import Registry
 
-ENTRY_POINT_GROUP = "hearnav.policies"
-BASELINES_DIR = Path(__file__).resolve().parents[2] / "baselines"
-_REGISTRY: dict[str, Any] = {}
+POLICIES: Registry[Any] = Registry("policy", "hearnav.policies", PolicyError)
 _loaded = False
 
 
 def register_policy(name: str, obj: Any = None) -> Callable:
-    """Register a policy class, factory or instance under ``name``; usable as a decorator."""
+    """Register a policy class, factory or instance under ``name`` (a plug-in name,
+    :data:`hearnav.plugins.NAME`); usable as a decorator."""
     def add(target: Any) -> Any:
-        if not isinstance(name, str) or not name:
-            raise PolicyError(f"policy name must be a non-empty string (got {name!r})")
-        if name in _REGISTRY and _REGISTRY[name] is not target:
-            raise PolicyError(f"policy {name!r} is already registered; pick another name")
-        _REGISTRY[name] = target
-        return target
+        return POLICIES.add(name, target)
 
     return add if obj is None else add(obj)
 
@@ -54,49 +50,41 @@ def _load_file(path: Path) -> Any:
 
 
 def load_builtins() -> None:
-    """Register the bundled baselines and every installed entry point (once)."""
+    """Register the bundled baselines (once); installed entry points load with the registry's names."""
     global _loaded
     if _loaded:
         return
     _loaded = True
-    if BASELINES_DIR.is_dir():
-        for path in sorted(BASELINES_DIR.glob("*.py")):
-            if not path.name.startswith("_"):
-                _load_file(path)
-    for ep in entry_points(group=ENTRY_POINT_GROUP):
-        if ep.name not in _REGISTRY:
-            try:
-                _REGISTRY[ep.name] = ep.load()
-            except Exception as exc:
-                raise PolicyError(f"entry point {ep.name!r} ({ep.value}) failed to load "
-                                  f"({type(exc).__name__}: {exc})") from None
+    for path in sorted(bundled.folder("baselines").glob("*.py")):
+        if not path.name.startswith("_"):
+            _load_file(path)
 
 
 def policy_names() -> list[str]:
     """Registered policy names, sorted."""
     load_builtins()
-    return sorted(_REGISTRY)
+    return sorted(POLICIES.names())
 
 
-def resolve(reference: str) -> tuple[str, Any]:
+def load_policy(reference: str) -> tuple[str, Any]:
     """(display name, policy object) for a registered name, ``module:attr`` or ``file.py:attr``."""
     load_builtins()
-    if reference in _REGISTRY:
-        return reference, as_policy(_REGISTRY[reference])
-    if ":" in reference:
-        where, attr = reference.rsplit(":", 1)
-        if where.endswith(".py"):
-            path = Path(where)
-            if not path.is_file():
-                raise PolicyError(f"policy file {where!r} not found (expected path/to/file.py:attr)")
-            module = _load_file(path)
-        else:
-            try:
-                module = importlib.import_module(where)
-            except ImportError as exc:
-                raise PolicyError(f"cannot import module {where!r} for policy {reference!r} ({exc})") from None
-        if not hasattr(module, attr):
-            raise PolicyError(f"{where} has no attribute {attr!r} (expected module:attr naming a policy)")
-        return reference, as_policy(getattr(module, attr))
-    raise PolicyError(unknown_name("policy", reference, _REGISTRY) +
-                      "; or give module:attr or path/to/file.py:attr")
+    if ":" not in reference:
+        try:
+            return reference, as_policy(POLICIES.get(reference))
+        except PolicyError as exc:
+            raise PolicyError(f"{exc}; or give module:attr or path/to/file.py:attr") from None
+    where, attr = reference.rsplit(":", 1)
+    if where.endswith(".py"):
+        path = Path(where)
+        if not path.is_file():
+            raise PolicyError(f"policy file {where!r} not found (expected path/to/file.py:attr)")
+        module = _load_file(path)
+    else:
+        try:
+            module = importlib.import_module(where)
+        except ImportError as exc:
+            raise PolicyError(f"cannot import module {where!r} for policy {reference!r} ({exc})") from None
+    if not hasattr(module, attr):
+        raise PolicyError(f"{where} has no attribute {attr!r} (expected module:attr naming a policy)")
+    return reference, as_policy(getattr(module, attr))

@@ -19,7 +19,7 @@ import numpy as np
 
 from hearnav.bench.oracle import OracleCache, oracle_bound
 from hearnav.bench.policy import is_privileged
-from hearnav.bench.registry import resolve
+from hearnav.bench.registry import load_policy
 from hearnav.bench.results import EpisodeResult
 from hearnav.bench.suites import Suite, policy_seed
 from hearnav.env.core import HearNavEnv
@@ -98,7 +98,7 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult
 
 
 def _work(env: HearNavEnv, task: Task) -> EpisodeResult:
-    name, policy = resolve(task.policy)
+    name, policy = load_policy(task.policy)
     return run_episode(env, name, policy, task)
 
 

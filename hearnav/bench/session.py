@@ -88,7 +88,7 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
         What ``out/summary.json`` holds (:meth:`Summary.to_dict`), over every row in ``out``.
     """
     from hearnav.acoustics import cache_dir
-    from hearnav.bench.registry import resolve
+    from hearnav.bench.registry import load_policy
     from hearnav.bench.runner import Task, compute_oracles, run_tasks
     from hearnav.bench.stats import summarise
     from hearnav.bench.suites import Suite, load_suite
@@ -96,7 +96,7 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
     policies = _check_arguments(policies, workers, save_audio)
     suite = suite if isinstance(suite, Suite) else load_suite(str(suite))
     for ref in policies:  # unknown names fail here, in one line, before any work
-        resolve(ref)
+        load_policy(ref)
     out = Path(out)
     out.mkdir(parents=True, exist_ok=True)
     results.check_manifest(out, {"suite": suite.name, "suite_hash": suite.digest(), "code_version": code_version()})

@@ -16,9 +16,11 @@ import yaml
 from pydantic import BaseModel, ConfigDict, Field, ValidationError
 
 from hearnav.env.config import EnvConfig, make_config
+from hearnav import bundled
 from hearnav.errors import ConfigError, did_you_mean
+from hearnav.plugins import identity
 
-SUITE_DIR = Path(__file__).resolve().parents[2] / "configs" / "suites"
+SUITE_DIR = bundled.folder("configs") / "suites"
 
 
 class Suite(BaseModel):
@@ -41,10 +43,21 @@ class Suite(BaseModel):
         return [int(child.generate_state(1, np.uint64)[0] % (2**63)) for child in
                 np.random.SeedSequence(self.seed).spawn(self.episodes)]
 
+    def plugins(self) -> dict[str, str]:
+        """Identity of every registered plug-in the suite's episodes and scores depend on: its sound categories
+        and its separator (:func:`hearnav.plugins.identity`)."""
+        from hearnav.separation import get_separator
+        from hearnav.sounds.registry import category_identity
+
+        cfg = self.env_config()
+        found = {f"sound:{name}": category_identity(name) for name in cfg.sound_categories}
+        found[f"separator:{cfg.separator}"] = identity(get_separator(cfg.separator).fn)
+        return found
+
     def digest(self) -> str:
-        """Hash of everything that defines the episodes."""
-        payload = json.dumps({"suite": self.model_dump(), "env": self.env_config().model_dump(mode="json")},
-                             sort_keys=True)
+        """Hash of everything that defines the episodes: the suite, its environment options and its plug-ins."""
+        payload = json.dumps({"suite": self.model_dump(), "env": self.env_config().model_dump(mode="json"),
+                              "plugins": self.plugins()}, sort_keys=True)
         return hashlib.sha256(payload.encode()).hexdigest()[:16]
 
 

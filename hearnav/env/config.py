@@ -9,10 +9,12 @@ import yaml
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
 from hearnav.acoustics.settings import AcousticSettings
+from hearnav.sounds.builtin import BUILTIN_NAMES
+from hearnav import bundled
 from hearnav.errors import ConfigError, did_you_mean
 
 #: Folder of the bundled environment configurations.
-CONFIG_DIR = Path(__file__).resolve().parents[2] / "configs" / "env"
+CONFIG_DIR = bundled.folder("configs") / "env"
 
 
 class EnvConfig(BaseModel):
@@ -22,6 +24,9 @@ class EnvConfig(BaseModel):
 
     scenes: str | list[str] = Field(default="train", description="a split, 'procedural', or scene names")
     procedural_pool: int = Field(default=16, ge=1, le=100000, description="generated scenes gen-0..gen-(N-1)")
+    sound_categories: list[str] = Field(
+        default_factory=lambda: list(BUILTIN_NAMES), min_length=1,
+        description="registered categories episodes draw sounds from (default: the five built-ins)")
     target_category: str | list[str] | None = Field(
         default=None, description="category (or list of categories) of the target sound; None: any")
     distractors: tuple[int, int] = Field(default=(1, 3), description="min and max number of distractors")

@@ -15,7 +15,7 @@ from hearnav.env.config import EnvConfig, make_config
 from hearnav.env.embodiment import Embodiment
 from hearnav.env.episode import (
     EpisodePlan,
-    check_category,
+    check_categories,
     draw_episode,
     render_signals,
 )
@@ -149,7 +149,7 @@ class HearNavEnv(gym.Env):
             raise ConfigError(f"render_mode must be None or 'rgb_array' (got {render_mode!r})")
         self.render_mode = render_mode
         cfg = self.config
-        check_category(cfg.target_categories)
+        check_categories(cfg)
         self.separator = get_separator(cfg.separator)
         self._ear = get_separator("ear")
         self.scene_names = resolve_scenes(cfg.scenes, cfg.procedural_pool)

@@ -42,19 +42,27 @@ class EpisodePlan:
     start_heading: int
 
 
-def allowed_categories(scene: Scene, spot: int) -> tuple[str, ...]:
-    """Registered categories a spot accepts (all of them when the scene does not restrict it)."""
-    spec = scene.spec.spots[spot].categories
+def allowed_categories(scene: Scene, spot: int, categories: list[str]) -> tuple[str, ...]:
+    """The categories of ``categories`` (the config's ``sound_categories``) a spot accepts, in that order.
+
+    Episodes draw only from the configured categories, never from whatever else is registered, so registering
+    a plug-in does not change a suite's episodes.
+    """
+    spec = scene.spots[spot].categories
+    return tuple(c for c in categories if spec is None or c in spec)
+
+
+def check_categories(cfg: EnvConfig) -> None:
+    """Raise ConfigError unless every configured category is registered and targets are among them."""
     registered = sounds.categories()
-    return tuple(c for c in registered if spec is None or c in spec)
-
-
-def check_category(categories: tuple[str, ...] | None) -> None:
-    """Raise ConfigError for an unregistered target category."""
-    for category in categories or ():
-        if category not in sounds.categories():
-            raise ConfigError(f"option 'target_category': "
-                              f"{unknown_name('sound category', category, sounds.categories())}")
+    for option, names in (("sound_categories", cfg.sound_categories), ("target_category", cfg.target_categories)):
+        for category in names or ():
+            if category not in registered:
+                raise ConfigError(f"option {option!r}: {unknown_name('sound category', category, registered)}")
+    for category in cfg.target_categories or ():
+        if category not in cfg.sound_categories:
+            raise ConfigError(f"option 'target_category': {category!r} is not drawn (expected one of "
+                              f"sound_categories: {', '.join(cfg.sound_categories)}); add it to sound_categories")
 
 
 def _start(grid: Grid, target_xy: np.ndarray, min_dist: float, rng: np.random.Generator) -> int:
@@ -72,7 +80,7 @@ def draw_episode(rng: np.random.Generator, cfg: EnvConfig, scene_name: str, scen
     wanted = cfg.target_categories
 
     def target_options(spot: int) -> tuple[str, ...]:
-        cats = allowed_categories(scene, spot)
+        cats = allowed_categories(scene, spot, cfg.sound_categories)
         return cats if wanted is None else tuple(c for c in cats if c in wanted)
 
     targets = [s for s in range(n_spots) if target_options(s)]
@@ -86,7 +94,7 @@ def draw_episode(rng: np.random.Generator, cfg: EnvConfig, scene_name: str, scen
     chosen = [int(s) for s in rng.permutation(others)[: min(n_dist, len(others))]]
     plans = []
     for role, spot in [("target", target)] + [("distractor", s) for s in chosen]:
-        cats = target_options(spot) if role == "target" else allowed_categories(scene, spot)
+        cats = target_options(spot) if role == "target" else allowed_categories(scene, spot, cfg.sound_categories)
         category = str(rng.choice(cats))
         voice = int(rng.integers(sounds.pool_size(category, cfg.sound_pool)))
         take = int(rng.integers(2**31 - 1))

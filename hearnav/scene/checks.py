@@ -9,6 +9,7 @@ import numpy as np
 import shapely
 from scipy import ndimage
 
+from hearnav import sounds
 from hearnav.errors import did_you_mean
 from hearnav.scene import format as fmt
 from hearnav.scene import materials as mats
@@ -174,6 +175,15 @@ def _spot_clearance(xyz: np.ndarray, room: shapely.Polygon, solids: list[SolidOb
     return float(d)
 
 
+def _check_categories(cats: tuple[str, ...], path: str, problems: Problems) -> None:
+    """Every category a spot names must be a registered sound category."""
+    registered = sounds.categories()
+    for i, cat in enumerate(cats):
+        if cat not in registered:
+            problems.add(f"{path}.categories[{i}]", f"unknown sound category {cat!r} (expected a registered "
+                                                    f"category); {did_you_mean(cat, registered)}")
+
+
 def _checked_spots(spec: fmt.SceneSpec, room: shapely.Polygon | None, solids: list[SolidObstacle],
                    problems: Problems) -> list[SourceSpot]:
     spots: list[SourceSpot] = []
@@ -182,7 +192,8 @@ def _checked_spots(spec: fmt.SceneSpec, room: shapely.Polygon | None, solids: li
         path = f"spots[{k}]"
         _check_unique("spot", sp.name, path, names, problems)
         xyz = np.array([sp.position[0], sp.position[1], sp.height], dtype=float)
-        cats = tuple(sp.categories) if sp.categories else fmt.CATEGORY_NAMES
+        cats = tuple(sp.categories) if sp.categories else None
+        _check_categories(cats or (), path, problems)
         spots.append(SourceSpot(sp.name, xyz, cats))
         if room is None:
             continue

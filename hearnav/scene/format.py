@@ -17,9 +17,6 @@ Point = Annotated[list[float], Field(min_length=2, max_length=2, description="[x
 Split = Literal["train", "val", "test"]
 #: The scene splits, in order: the one definition every other module uses.
 SPLITS: tuple[str, ...] = get_args(Split)
-#: Sound categories a spot may restrict itself to; the sounds package registers the same names.
-CATEGORY_NAMES = ("talker", "music", "alarm", "hum", "noise")
-Category = Literal["talker", "music", "alarm", "hum", "noise"]
 
 
 class _Strict(BaseModel):
@@ -145,8 +142,8 @@ class Spot(_Strict):
     name: str = Field(min_length=1)
     position: Point
     height: float = Field(description="metres above the floor")
-    categories: list[Category] | None = Field(
-        default=None, description="allowed sound categories (default: all)"
+    categories: list[str] | None = Field(
+        default=None, description="allowed sound categories, registered names (default: all)"
     )
 
 

@@ -13,6 +13,7 @@ import json
 import os
 from pathlib import Path
 
+from hearnav import bundled
 from hearnav.errors import ConfigError, SceneError, unknown_name
 from hearnav.scene import generator
 from hearnav.scene.format import SPLITS, SceneSpec
@@ -27,8 +28,8 @@ _SCHEMA_DIALECT = "https://json-schema.org/draft/2020-12/schema"
 
 
 def scenes_dir() -> Path:
-    """The bundled scenes folder: ``scenes/`` next to the ``hearnav`` package."""
-    return Path(__file__).resolve().parents[2] / "scenes"
+    """The bundled scenes folder (:func:`hearnav.bundled.folder`)."""
+    return bundled.folder("scenes")
 
 
 def search_dirs() -> list[Path]:

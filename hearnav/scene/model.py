@@ -9,7 +9,7 @@ import numpy as np
 
 from hearnav.physics.reverberation import eyring
 
-from hearnav.scene.format import CATEGORY_NAMES, SceneSpec
+from hearnav.scene.format import SceneSpec
 from hearnav.scene.materials import Material
 
 #: Gap (m) by which obstacles are shrunk so that no face of the 3-D room is shared by two solids.
@@ -29,11 +29,11 @@ class SolidObstacle:
 
 @dataclass(frozen=True)
 class SourceSpot:
-    """A named source position in 3-D with its allowed sound categories."""
+    """A named source position in 3-D with its allowed sound categories (None: any)."""
 
     name: str
     position: np.ndarray  # (3,)
-    categories: tuple[str, ...]
+    categories: tuple[str, ...] | None
 
 
 @dataclass(frozen=True)
@@ -136,5 +136,3 @@ def counter_clockwise(points: np.ndarray) -> np.ndarray:
     """The same polygon with its corners in counter-clockwise order."""
     return points if polygon_area(points) > 0 else points[::-1].copy()
 
-
-ALL_CATEGORIES = CATEGORY_NAMES

@@ -10,17 +10,16 @@ privileged.
 from __future__ import annotations
 
 import dataclasses
-import re
 from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 
-from hearnav.errors import SeparatorError, unknown_name
+from hearnav.errors import SeparatorError
+from hearnav.plugins import Registry
 from hearnav.separation.context import SeparationContext
 
 SeparatorFn = Callable[[np.ndarray, SeparationContext], np.ndarray]
-_NAME = re.compile(r"^[a-z][a-z0-9_\-]*$")
 
 
 @dataclass(frozen=True)
@@ -74,7 +73,14 @@ class Separator:
         return mix
 
 
-_REGISTRY: dict[str, Separator] = {}
+def _adopt(name: str, fn: object) -> Separator:
+    """A Separator from an entry point's function."""
+    if not callable(fn):
+        raise SeparatorError(f"separator {name!r} must be callable, got {type(fn).__name__}")
+    return Separator(name, fn, bool(getattr(fn, "privileged", False)))
+
+
+SEPARATORS: Registry[Separator] = Registry("separator", "hearnav.separators", SeparatorError, _adopt)
 
 
 def register_separator(name: str, fn: SeparatorFn | None = None, *, privileged: bool | None = None):
@@ -82,7 +88,7 @@ def register_separator(name: str, fn: SeparatorFn | None = None, *, privileged: 
 
     Parameters
     ----------
-    name : lower-case letter, then lower-case letters, digits, ``_`` or ``-``.
+    name : a plug-in name (:data:`hearnav.plugins.NAME`).
     fn : ``fn(mixture (2, n), ctx) -> (n,)``.
     privileged : whether the separator reads ``ctx.target_image`` (an oracle); defaults to the function's
         own ``privileged`` attribute, else False.
@@ -101,36 +107,30 @@ def register_separator(name: str, fn: SeparatorFn | None = None, *, privileged: 
             register_separator(name, f, privileged=privileged)
             return f
         return decorator
-    if not isinstance(name, str) or not _NAME.match(name):
-        raise SeparatorError(f"separator name must be a lower-case letter then letters, digits, '_' or '-', "
-                             f"got {name!r}")
-    if name in _REGISTRY:
-        raise SeparatorError(f"separator {name!r} is already registered; pick another name")
-    if not callable(fn):
-        raise SeparatorError(f"separator {name!r} must be callable, got {type(fn).__name__}")
-    flag = bool(getattr(fn, "privileged", False)) if privileged is None else bool(privileged)
-    sep = Separator(name, fn, flag)
-    _REGISTRY[name] = sep
-    return sep
+    SEPARATORS.check_name(name)
+    if name in SEPARATORS:
+        raise SeparatorError(f"separator {name!r} is already registered (expected a new name); choose another "
+                             f"name or unregister the old one first")
+    sep = _adopt(name, fn)
+    if privileged is not None:
+        sep = dataclasses.replace(sep, privileged=bool(privileged))
+    return SEPARATORS.add(name, sep)
 
 
 def get_separator(name: str) -> Separator:
-    """The separator registered as ``name``.
+    """The separator registered as ``name`` (or by an installed ``hearnav.separators`` entry point).
 
     Raises
     ------
     SeparatorError
         Unknown name (the message lists the close matches or the valid names).
     """
-    sep = _REGISTRY.get(name) if isinstance(name, str) else None
-    if sep is None:
-        raise SeparatorError(unknown_name("separator", str(name), _REGISTRY))
-    return sep
+    return SEPARATORS.get(name)
 
 
 def separator_names() -> list[str]:
     """Registered separator names, sorted."""
-    return sorted(_REGISTRY)
+    return sorted(SEPARATORS.names())
 
 
 def unregister_separator(name: str) -> None:
@@ -141,5 +141,4 @@ def unregister_separator(name: str) -> None:
     SeparatorError
         Unknown name.
     """
-    get_separator(name)
-    del _REGISTRY[name]
+    SEPARATORS.remove(name)

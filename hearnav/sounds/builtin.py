@@ -8,6 +8,8 @@ from hearnav.sounds.registry import categories, register_category
 
 #: Built-in category modules; each has ``NAME``, ``voices(pool)`` and ``generate(...)``.
 BUILTIN = (talker, music, alarm, hum, noise)
+#: Their names, in the same order.
+BUILTIN_NAMES: tuple[str, ...] = tuple(module.NAME for module in BUILTIN)
 
 
 def register_builtin() -> None:

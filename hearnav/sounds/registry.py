@@ -9,29 +9,27 @@ from __future__ import annotations
 
 import math
 import operator
-import re
 from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 
-from hearnav.errors import SoundError, unknown_name
+from hearnav.errors import SoundError
+from hearnav.plugins import Registry, identity
 from hearnav.sounds.common import DEFAULT_FS, MIN_FS, POOLS, check_pool, n_samples
 from hearnav.sounds.level import normalise_level
 
 Generator = Callable[[int, str, int, float, int], np.ndarray]
 #: Takes drawn by :func:`draw` are integers in ``[0, MAX_TAKE)``; any non-negative take may be generated.
 MAX_TAKE = 2**31
-_NAME = re.compile(r"^[A-Za-z][A-Za-z0-9_\-]*$")
 
 
 @dataclass(frozen=True)
-class _Category:
+class Category:
+    """A registered sound category: its generator and the number of voices in each pool."""
+
     generator: Generator
     n_voices: dict[str, int]
-
-
-_REGISTRY: dict[str, _Category] = {}
 
 
 def _as_int(value: object, what: str) -> int:
@@ -63,13 +61,27 @@ def _check_n_voices(name: str, n_voices: dict[str, int] | None) -> dict[str, int
     return checked
 
 
+def _category(name: str, generator: object, n_voices: dict[str, int] | None) -> Category:
+    if not callable(generator):
+        raise SoundError(
+            f"generator of category {name!r} must be callable, got {type(generator).__name__}; "
+            "pass a function generator(voice, pool, take, duration_s, fs)"
+        )
+    return Category(generator, _check_n_voices(name, n_voices))
+
+
+REGISTRY: Registry[Category] = Registry(
+    "sound category", "hearnav.sounds", SoundError,
+    lambda name, generator: _category(name, generator, getattr(generator, "n_voices", None)))
+
+
 def register_category(name: str, generator: Generator, n_voices: dict[str, int] | None = None) -> None:
     """Add a sound category.
 
     Parameters
     ----------
     name : str
-        New category name: a letter, then letters, digits, ``_`` or ``-``.
+        New category name, a plug-in name (:data:`hearnav.plugins.NAME`).
     generator : callable
         ``generator(voice, pool, take, duration_s, fs)`` returning a float array of shape
         ``(round(duration_s * fs),)``; it must be deterministic in its arguments.
@@ -81,44 +93,39 @@ def register_category(name: str, generator: Generator, n_voices: dict[str, int] 
     SoundError
         If the name is taken or malformed, the generator is not callable or ``n_voices`` is invalid.
     """
-    if not isinstance(name, str) or not _NAME.match(name):
-        raise SoundError(
-            f"category name must start with a letter and hold only letters, digits, '_' or '-', got {name!r}; "
-            "choose another name"
-        )
-    if name in _REGISTRY:
-        raise SoundError(
-            f"category {name!r} is already registered: expected a new name; choose another name "
-            "or call unregister_category first"
-        )
-    if not callable(generator):
-        raise SoundError(
-            f"generator of category {name!r} must be callable, got {type(generator).__name__}; "
-            "pass a function generator(voice, pool, take, duration_s, fs)"
-        )
-    _REGISTRY[name] = _Category(generator, _check_n_voices(name, n_voices))
+    REGISTRY.check_name(name)
+    if name in REGISTRY:
+        raise SoundError(f"sound category {name!r} is already registered (expected a new name); choose another "
+                         f"name or unregister the old one first")
+    REGISTRY.add(name, _category(name, generator, n_voices))
 
 
 def unregister_category(name: str) -> None:
     """Remove a registered category (unknown name: :class:`SoundError`)."""
-    _lookup(name)
-    del _REGISTRY[name]
+    REGISTRY.remove(name)
 
 
 def categories() -> tuple[str, ...]:
-    """Registered category names, in registration order."""
-    return tuple(_REGISTRY)
+    """Registered category names, in registration order (the built-ins first)."""
+    return REGISTRY.names()
 
 
-def _lookup(category: str) -> _Category:
-    if category not in _REGISTRY:
-        raise SoundError(unknown_name("sound category", str(category), _REGISTRY))
-    return _REGISTRY[category]
+def get_category(name: str) -> Category:
+    """The registered category ``name`` (unknown name: :class:`SoundError` listing close matches)."""
+    return REGISTRY.get(name)
+
+
+def category_identity(name: str) -> str:
+    """What a category's sounds depend on besides their arguments, for digests: its generator's identity
+    (:func:`hearnav.plugins.identity`) and its voice counts."""
+    entry = get_category(name)
+    voices = ",".join(f"{pool}={entry.n_voices[pool]}" for pool in sorted(entry.n_voices))
+    return f"{identity(entry.generator)} [{voices}]"
 
 
 def pool_size(category: str, pool: str) -> int:
     """Number of distinct voices in one pool of one category."""
-    return _lookup(category).n_voices[check_pool(pool)]
+    return get_category(category).n_voices[check_pool(pool)]
 
 
 def check_duration(duration_s: float, fs: int) -> int:
@@ -173,7 +180,7 @@ def generate(
     numpy.ndarray, shape (round(duration_s * fs),), float32
         The same arguments always give the same samples.
     """
-    entry = _lookup(category)
+    entry = get_category(category)
     check_pool(pool)
     fs = check_fs(fs)
     n = check_duration(duration_s, fs)
@@ -225,9 +232,3 @@ def draw(
     take = int(rng.integers(MAX_TAKE))
     signal = generate(category, pool, voice, take, duration_s, fs)
     return signal, {"category": category, "pool": pool, "voice": voice, "take": take}
-
-
-def __getattr__(name: str) -> tuple[str, ...]:
-    if name == "CATEGORIES":
-        return categories()
-    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import hashlib
 from math import gcd
 from pathlib import Path
 
@@ -118,6 +119,13 @@ class WavFolder:
     def __len__(self) -> int:
         return len(self._sounds)
 
+    def digest(self) -> str:
+        """SHA-256 (16 hex digits) of the file names and their loaded samples: what the folder's sounds are."""
+        h = hashlib.sha256(str(self.fs).encode())
+        for name, sound in zip(self._names, self._sounds):
+            h.update(name.encode() + b"\0" + np.ascontiguousarray(sound).tobytes())
+        return h.hexdigest()[:16]
+
     def names(self) -> list[str]:
         """File names, in the (sorted) order used by the indices."""
         return list(self._names)
@@ -187,4 +195,5 @@ def register_wav_folder(name: str, folder: str | Path, fs: int = DEFAULT_FS) -> 
         start = 0 if take == 0 else int(np.random.default_rng(seed).integers(size))
         return wavs.get(voice, duration_s, start / fs_req).astype(np.float64)
 
+    generator.identity = f"wav-folder:{first.digest()}"  # the sounds themselves, for suite digests
     register_category(name, generator, {pool: len(first) for pool in POOLS})

@@ -38,7 +38,7 @@ def _generator_identity() -> str:
 
 
 def _builtin(category: str) -> bool:
-    generator = registry._lookup(category).generator
+    generator = registry.get_category(category).generator
     return any(module.NAME == category and module.generate is generator for module in builtin.BUILTIN)
 
 

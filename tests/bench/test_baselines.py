@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from hearnav.bench.policy import is_privileged
-from hearnav.bench.registry import resolve
+from hearnav.bench.registry import load_policy
 from tests.bench.conftest import ANECHOIC
 
 NAMES = ("still", "face-arrival", "random-walk", "approach", "greedy-oracle")
@@ -15,7 +15,7 @@ QUIET_DISTRACTOR = {"distractors": [1, 1], "distractor_level_db": [-30.0, -25.0]
 
 def run(env, name: str, seed: int, k: int | None = None) -> dict:
     """One episode of a registered baseline: its actions, infos, maps seen, last observation and path."""
-    _, policy = resolve(name)
+    _, policy = load_policy(name)
     obs, info = env.reset(seed=seed)
     extra = {"seed": seed if k is None else k}
     if is_privileged(policy):
@@ -43,7 +43,7 @@ def test_valid_actions_for_a_whole_episode(make_env, name):
     # common practice (gymnasium): every action lies in the action space, and the episode runs to truncation
     assert len(out["actions"]) == env.config.budget
     assert all(isinstance(a, int) and env.action_space.contains(a) for a in out["actions"])
-    assert is_privileged(resolve(name)[1]) == (name in ("approach", "greedy-oracle"))
+    assert is_privileged(load_policy(name)[1]) == (name in ("approach", "greedy-oracle"))
 
 
 def test_still_never_moves(make_env):

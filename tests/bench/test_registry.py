@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 
 import hearnav
+from hearnav import plugins
 from hearnav.bench import registry
 from hearnav.bench.policy import SB3Policy, as_policy
 from hearnav.errors import PolicyError
@@ -26,9 +27,9 @@ def test_decorator_class_factory_and_instance():
     hearnav.register_policy("test-class")(Fixed)
     hearnav.register_policy("test-factory", lambda: Fixed(1))
     hearnav.register_policy("test-instance", Fixed(2))
-    assert registry.resolve("test-class")[1].act({}, {}) == 3
-    assert registry.resolve("test-factory")[1].act({}, {}) == 1
-    assert registry.resolve("test-instance")[1].act({}, {}) == 2
+    assert registry.load_policy("test-class")[1].act({}, {}) == 3
+    assert registry.load_policy("test-factory")[1].act({}, {}) == 1
+    assert registry.load_policy("test-instance")[1].act({}, {}) == 2
     assert {"test-class", "still", "random-walk", "face-arrival", "approach", "greedy-oracle"} <= set(
         registry.policy_names())
 
@@ -37,8 +38,8 @@ def test_module_and_file_references(tmp_path, monkeypatch):
     (tmp_path / "my_policies.py").write_text("class Turn:\n    def reset(self, o, i): pass\n"
                                               "    def act(self, o, i): return 1\n")
     monkeypatch.syspath_prepend(str(tmp_path))
-    assert registry.resolve("my_policies:Turn")[1].act({}, {}) == 1
-    assert registry.resolve(f"{tmp_path / 'my_policies.py'}:Turn")[1].act({}, {}) == 1
+    assert registry.load_policy("my_policies:Turn")[1].act({}, {}) == 1
+    assert registry.load_policy(f"{tmp_path / 'my_policies.py'}:Turn")[1].act({}, {}) == 1
 
 
 def test_entry_point_group(monkeypatch, tmp_path):
@@ -46,9 +47,9 @@ def test_entry_point_group(monkeypatch, tmp_path):
                                               "    def act(self, o, i): return 3\n")
     monkeypatch.syspath_prepend(str(tmp_path))
     ep = importlib.metadata.EntryPoint(name="from-entry-point", value="ep_policies:Stay", group="hearnav.policies")
-    monkeypatch.setattr(registry, "entry_points", lambda group: [ep] if group == "hearnav.policies" else [])
-    monkeypatch.setattr(registry, "_loaded", False)
-    assert registry.resolve("from-entry-point")[1].act({}, {}) == 3
+    monkeypatch.setattr(plugins, "entry_points", lambda group: [ep] if group == "hearnav.policies" else [])
+    monkeypatch.setattr(registry.POLICIES, "_entry_points_loaded", False)
+    assert registry.load_policy("from-entry-point")[1].act({}, {}) == 3
 
 
 @pytest.mark.parametrize("reference, message", [
@@ -59,7 +60,7 @@ def test_entry_point_group(monkeypatch, tmp_path):
 ])
 def test_bad_references(reference, message):
     with pytest.raises(PolicyError, match=message):
-        registry.resolve(reference)
+        registry.load_policy(reference)
 
 
 def test_classes_needing_arguments_and_non_policies_are_refused():

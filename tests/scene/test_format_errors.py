@@ -368,9 +368,23 @@ def test_spot_exactly_at_the_clearance_is_allowed(scene_edit):
 
 def test_unknown_spot_category(scene_edit):
     with pytest.raises(SceneError, match=re.escape(
-            "room.yaml: spots[3].categories[0]: not an allowed value (expected one of 'talker', 'music', 'alarm', "
-            "'hum' or 'noise', got 'singer')")):
+            "room.yaml: spots[3].categories[0]: unknown sound category 'singer' (expected a registered category); "
+            "valid names: alarm, hum, music, noise, talker")):
         build(scene_edit({"spots.3.categories": ["singer"]}))
+    with pytest.raises(SceneError, match=re.escape("spots[3].categories[1]: unknown sound category 'talkr' "
+                                                   "(expected a registered category); did you mean 'talker'")):
+        build(scene_edit({"spots.3.categories": ["music", "talkr"]}))
+
+
+def test_spot_categories_may_name_a_registered_plug_in(scene_edit):
+    from hearnav import sounds
+
+    sounds.register_category("user-bell", lambda v, p, t, d, fs: np.sin(np.arange(round(d * fs)) * 0.3))
+    try:
+        scene = from_dict(scene_edit({"spots.3.categories": ["user-bell", "talker"]}), SRC)
+        assert scene.spots[3].categories == ("user-bell", "talker")
+    finally:
+        sounds.unregister_category("user-bell")
 
 
 # --- materials ------------------------------------------------------------------------------------

@@ -183,7 +183,7 @@ def test_registering_twice_or_badly_raises(scratch):
     scratch.append("twice")
     with pytest.raises(SeparatorError, match="separator 'twice' is already registered"):
         register_separator("twice", lambda m, c: m[0])
-    with pytest.raises(SeparatorError, match="lower-case letter then letters"):
+    with pytest.raises(SeparatorError, match=r"separator name must be a lower-case letter, then lower-case letters, digits, .* \(got .Bad Name.\)"):
         register_separator("Bad Name", lambda m, c: m[0])
     with pytest.raises(SeparatorError, match="must be callable, got int"):
         register_separator("not-callable", 3)

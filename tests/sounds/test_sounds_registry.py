@@ -153,7 +153,8 @@ def test_register_default_one_voice_per_pool(scratch_names):
 @pytest.mark.parametrize(
     "name, generator, n_voices, message",
     [
-        ("", np.ones, None, r"category name must start with a letter"),
+        ("", np.ones, None, r"sound category name must be a lower-case letter, then lower-case letters, digits"),
+        ("Chirp", np.ones, None, r"sound category name must be a lower-case letter.*\(got 'Chirp'\)"),
         ("ok", "not callable", None, r"generator of category 'ok' must be callable, got str"),
         ("ok", np.ones, {"seen": 2}, r"n_voices of category 'ok' must be a dict with the keys \['seen', 'unseen'\]"),
         ("ok", np.ones, {"seen": 2, "unseen": 0}, r"n_voices\['unseen'\] of category 'ok' must be at least 1, got 0"),
