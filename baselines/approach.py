@@ -20,7 +20,7 @@ Pose = tuple[int, int]
 
 def facing_heading(view, cell: int) -> int | None:
     """The heading at ``cell`` that points most nearly at the target (None when the target is on the cell)."""
-    dx, dy = np.asarray(view.target_xy, float) - np.asarray(view.grid.centers[cell], float)
+    dx, dy = np.asarray(view.target_xy, float) - np.asarray(view.grid.centres[cell], float)
     if np.hypot(dx, dy) < 1e-6:
         return None
     return int(np.argmin(np.abs(bearing(dx, dy, heading_angles(view.grid.n_headings)))))
@@ -28,8 +28,8 @@ def facing_heading(view, cell: int) -> int | None:
 
 def plan_path(view, start: Pose) -> list[int]:
     """Actions of a shortest path from ``start`` to the goal pose (nearest cell, facing the target)."""
-    centers = np.asarray(view.grid.centers, float)
-    goal_cell = int(np.argmin(np.hypot(*(centers - np.asarray(view.target_xy, float)).T)))
+    centres = np.asarray(view.grid.centres, float)
+    goal_cell = int(np.argmin(np.hypot(*(centres - np.asarray(view.target_xy, float)).T)))
     goal_heading = facing_heading(view, goal_cell)
     parent: dict[Pose, tuple[Pose, int] | None] = {start: None}
     queue, found = deque([start]), None

@@ -44,7 +44,7 @@ def main() -> None:
           f"{len(scene.spots)} spots = {grid.n_cells * settings.n_headings * len(scene.spots)} binaural responses")
 
     t0 = time.perf_counter()
-    receivers = np.c_[grid.centers, np.full(grid.n_cells, scene.ear_height)]
+    receivers = np.c_[grid.centres, np.full(grid.n_cells, scene.ear_height)]
     images = room.image_sources(scene, settings, receivers)
     t_ism = time.perf_counter() - t0
     with tempfile.TemporaryDirectory() as tmp:

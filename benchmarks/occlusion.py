@@ -42,7 +42,7 @@ def occlusion_moves(world: World, spot: int) -> list[tuple[int, int]]:
 
 def _facing(world: World, cell: int, xy: np.ndarray) -> tuple[int, float]:
     """The heading nearest the direction of ``xy`` and the remaining bearing (radians)."""
-    dx, dy = xy - world.grid.centers[cell]
+    dx, dy = xy - world.grid.centres[cell]
     bearings = bearing(dx, dy, heading_angles(world.grid.n_headings))
     h = int(np.argmin(np.abs(bearings)))
     return h, float(bearings[h])

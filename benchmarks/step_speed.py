@@ -80,7 +80,7 @@ def resim_time(env, n_steps: int) -> float:
     total = 0.0
     for k in range(n_steps):
         cell = (env.cell + k) % grid.n_cells
-        centre = np.r_[grid.centers[cell], scene.ear_height]
+        centre = np.r_[grid.centres[cell], scene.ear_height]
         ears = centre + settings.head_radius * ear_axes(grid.heading_angle(env.heading))
         t0 = time.perf_counter()
         room_mod.configure(settings)

@@ -123,7 +123,7 @@ def test_direct_path_geometry(responses):
     # straight-line travel time r / c and spherical spreading 1 / r (textbook acoustics), air absorption off
     for cell in (NEAR_A, GENERIC, FAR):
         for spot, spec in enumerate(SPOTS):
-            r = np.hypot(*(np.asarray(spec["position"]) - responses.centers[cell]))
+            r = np.hypot(*(np.asarray(spec["position"]) - responses.centres[cell]))
             assert responses.line_of_sight[cell, spot]
             assert responses.first_delay[cell, spot] == pytest.approx(r / SPEED, rel=1e-5)
             assert responses.first_gain[cell, spot] == pytest.approx(1 / r, rel=1e-5)

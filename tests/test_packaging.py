@@ -2,6 +2,7 @@
 
 import json
 import os
+import shutil
 import subprocess
 import sys
 import sysconfig
@@ -27,8 +28,11 @@ def test_an_installed_wheel_runs_the_smoke_suite(tmp_path):
     # A wheel in a fresh virtual environment, run from a folder outside the repository: the scenes, the suite
     # and the still baseline must come from the package data. The new environment reuses this one's
     # dependencies through a path entry (not a site directory, so this checkout's editable install is unseen).
+    source = tmp_path / "source"  # a copy, so the build leaves no build/ folder in the checkout and reads none
+    shutil.copytree(ROOT, source, ignore=shutil.ignore_patterns(".git", ".venv", "build", "dist", "results", "out",
+                                                                "__pycache__", "*.egg-info", ".pytest_cache"))
     wheels = tmp_path / "wheels"
-    subprocess.run([sys.executable, "-m", "pip", "wheel", "--no-deps", "-q", "-w", str(wheels), str(ROOT)],
+    subprocess.run([sys.executable, "-m", "pip", "wheel", "--no-deps", "-q", "-w", str(wheels), str(source)],
                    check=True, capture_output=True)
     venv = tmp_path / "venv"
     subprocess.run([sys.executable, "-m", "venv", "--without-pip", str(venv)], check=True)

@@ -40,8 +40,8 @@ def choose_probes(grid: Grid, spacing_m: float) -> tuple[np.ndarray, np.ndarray]
     probes : (n_probes,) cell ids.
     owner : (n_cells,) index into ``probes`` of each cell's nearest probe.
     """
-    centroid = grid.centers.mean(axis=0)
-    first = int(np.argmin(np.linalg.norm(grid.centers - centroid, axis=1)))
+    centroid = grid.centres.mean(axis=0)
+    first = int(np.argmin(np.linalg.norm(grid.centres - centroid, axis=1)))
     probes = [first]
     nearest = walking_distances(grid, first)
     owner = np.zeros(grid.n_cells, dtype=np.int64)

@@ -37,7 +37,7 @@ class Responses:
 
     fs: int
     lead: int
-    centers: np.ndarray  # (C, 2) cell centres
+    centres: np.ndarray  # (C, 2) cell centres
     spot_names: tuple[str, ...]
     early: np.ndarray  # (C, H, S, 2, Le) float16
     tail: np.ndarray  # (C, S, 2, L) float16
@@ -116,7 +116,7 @@ def build_responses(scene: Scene, grid: Grid, settings: AcousticSettings,
                     progress: Callable[[int], None] | None = None) -> Responses:
     """Simulate the room and synthesise every response of a scene. ``progress(n)`` is called with cells done."""
     fs, c = settings.fs, settings.speed_of_sound
-    receivers = np.c_[grid.centers, np.full(grid.n_cells, scene.ear_height)]
+    receivers = np.c_[grid.centres, np.full(grid.n_cells, scene.ear_height)]
     headings = heading_angles(settings.n_headings)
     from hearnav.acoustics import room  # pyroomacoustics loads only when responses are simulated
 
@@ -154,7 +154,7 @@ def build_responses(scene: Scene, grid: Grid, settings: AcousticSettings,
         tail[cells] = tails.reshape(len(cells), n_s, 2, length).astype(np.float16)
         if progress:
             progress(len(cells))
-    return Responses(fs, RESPONSE_LEAD, grid.centers, tuple(s.name for s in scene.spots), early, tail,
+    return Responses(fs, RESPONSE_LEAD, grid.centres, tuple(s.name for s in scene.spots), early, tail,
                      first_delay.reshape(n_c, n_s).astype(np.float32), first_gain.reshape(n_c, n_s).astype(np.float32),
                      los.reshape(n_c, n_s), rt60)
 

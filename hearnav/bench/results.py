@@ -45,7 +45,7 @@ class ResultsError(HearnavError):
 class EpisodeResult:
     """One policy on one episode: a row of ``DIR/episodes.jsonl`` (``status`` "ok" or "failed").
 
-    Scores are SI-SDR in dB. ``normalized_gain`` is gain / (oracle bound - start score), ``None`` when the
+    Scores are SI-SDR in dB. ``normalised_gain`` is gain / (oracle bound - start score), ``None`` when the
     bound is unknown or not above the start. ``extra`` keeps fields this version does not know (rows written
     by other versions), so they survive a round trip.
     """
@@ -59,12 +59,12 @@ class EpisodeResult:
     scene: str | None = None
     oracle_si_sdr_db: float | None = None
     start_si_sdr_db: float | None = None
-    start_mixture_si_sdr_db: float | None = None
+    start_ear_si_sdr_db: float | None = None
     final_si_sdr_db: float | None = None
     best_si_sdr_db: float | None = None
     gain_db: float | None = None
     episode_return: float | None = None
-    normalized_gain: float | None = None
+    normalised_gain: float | None = None
     path_length_m: float | None = None
     steps: int | None = None
     collisions: int | None = None

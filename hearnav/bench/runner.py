@@ -59,7 +59,7 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult
     start = info["si_sdr_db"]
     result = EpisodeResult(policy=name, privileged=privileged, episode_index=task.index, episode_seed=task.seed,
                            oracle_si_sdr_db=task.oracle, scene=info["scene"], start_si_sdr_db=start,
-                           start_mixture_si_sdr_db=info["mixture_si_sdr_db"])
+                           start_ear_si_sdr_db=info["ear_si_sdr_db"])
     start_xy = (info["pose"]["x"], info["pose"]["y"])
     best, ret, collisions, path, steps = start, 0.0, 0, 0.0, 0
     audio = [] if task.audio_dir else None
@@ -86,7 +86,7 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult
     gain = final - start
     span = None if task.oracle is None else task.oracle - start
     result.final_si_sdr_db, result.best_si_sdr_db, result.gain_db, result.episode_return = final, best, gain, ret
-    result.normalized_gain = (gain / span) if span and span > 1e-9 else None
+    result.normalised_gain = (gain / span) if span and span > 1e-9 else None
     result.path_length_m, result.steps, result.collisions = path, steps, collisions
     result.final_pose, result.start_xy = info["pose"], list(start_xy)
     result.wall_time_s = time.perf_counter() - t0

@@ -23,7 +23,7 @@ from scipy import stats as _st
 
 from hearnav.bench.results import EpisodeResult, ResultsError
 
-METRICS = ("gain_db", "final_si_sdr_db", "normalized_gain")
+METRICS = ("gain_db", "final_si_sdr_db", "normalised_gain")
 
 
 def _clean(values: Iterable[Any]) -> np.ndarray:

@@ -34,7 +34,7 @@ class EnvConfig(BaseModel):
     distractor_level_db: tuple[float, float] = Field(default=(-6.0, 6.0),
                                                      description="distractor level relative to the target, dB")
     min_start_distance: float = Field(default=2.0, ge=0.0, le=50.0, description="metres from the target spot")
-    hop_s: float = Field(default=0.5, ge=0.05, le=4.0, description="seconds of sound per step")
+    step_s: float = Field(default=0.5, ge=0.05, le=4.0, description="seconds of sound per step")
     budget: int = Field(default=20, ge=1, le=1000, description="steps before truncation")
     separator: str = Field(default="delay-and-sum", description="registered separator name")
     reward_clip: float | None = Field(default=None, gt=0.0, description="clip the reward to +/- this many dB")

@@ -17,11 +17,11 @@ from hearnav.env.episode import (
     EpisodePlan,
     check_categories,
     draw_episode,
-    render_signals,
+    dry_signals,
 )
 from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor, band_edges
 from hearnav.env.privileged import PrivilegedView
-from hearnav.env.worlds import World, get_views, get_world, resolve_scenes
+from hearnav.env.worlds import World, get_views, get_world, scene_list
 from hearnav.errors import ConfigError, HearnavError
 from hearnav.listening import FADE_S, ListeningSession, Source, Window
 from hearnav.separation import SeparationContext, get_separator
@@ -71,7 +71,7 @@ class HearNavEnv(gym.Env):
     """A two-eared listener moves over a floorplan so that a separator can pull out one target sound.
 
     Each episode places a target sound and 1-3 distractors at named spots of a scene; the sources play
-    continuously. Every step the listener acts, then hears the next ``hop_s`` seconds at its new pose. The
+    continuously. Every step the listener acts, then hears the next ``step_s`` seconds at its new pose. The
     built-in separator (``separator``, steered at the target spot's direction) extracts the target from the
     binaural mixture, and the reward is the change of its SI-SDR (Le Roux et al., 2019) against the target
     reference (the target's dry signal delayed and scaled by its earliest path at the head centre).
@@ -117,7 +117,7 @@ class HearNavEnv(gym.Env):
 
     ## Info
     At reset, ``embodiment`` (:class:`hearnav.env.embodiment.Embodiment`: sampling rate, window, headings, head
-    radius, speed of sound, band edges, STFT; also ``env.unwrapped.embodiment``). At reset and every step, ``si_sdr_db`` (separator), ``mixture_si_sdr_db`` (the unprocessed ear nearer the target: the input
+    radius, speed of sound, band edges, STFT; also ``env.unwrapped.embodiment``). At reset and every step, ``si_sdr_db`` (separator), ``ear_si_sdr_db`` (the unprocessed ear nearer the target: the input
     reference), ``pose`` (cell, x, y, heading index and degrees), ``collided``, ``target_active``, ``step``,
     ``scene`` and ``sources`` (role, spot, category, pool, voice, take, level). No wall-clock values.
     A window in which the target is silent (an alarm's pause) has no SI-SDR: ``target_active`` is False and
@@ -135,7 +135,7 @@ class HearNavEnv(gym.Env):
     :class:`hearnav.env.config.EnvConfig`): ``scenes`` (a split, "procedural", or a list of names),
     ``procedural_pool``, ``target_category`` (a category or a list), ``distractors`` ([min, max]), ``sound_pool`` ("seen" or
     "unseen"), ``distractor_level_db`` ([low, high] relative to the target), ``min_start_distance`` (m),
-    ``hop_s``, ``budget``, ``separator``, ``reward_clip``, ``n_bands``, ``n_segments``, ``patch_size``,
+    ``step_s``, ``budget``, ``separator``, ``reward_clip``, ``n_bands``, ``n_segments``, ``patch_size``,
     ``fov_deg`` and ``acoustics`` (:class:`hearnav.acoustics.AcousticSettings` fields). Unknown options and
     out-of-range values raise :class:`hearnav.errors.ConfigError`. ``render_mode="rgb_array"`` draws the plan,
     the target (red) and distractors (grey), the listener's pose and its path.
@@ -152,9 +152,9 @@ class HearNavEnv(gym.Env):
         check_categories(cfg)
         self.separator = get_separator(cfg.separator)
         self._ear = get_separator("ear")
-        self.scene_names = resolve_scenes(cfg.scenes, cfg.procedural_pool)
+        self.scene_names = scene_list(cfg.scenes, cfg.procedural_pool)
         self.fs = cfg.acoustics.fs
-        self.window_len = int(round(cfg.hop_s * self.fs))
+        self.window_len = int(round(cfg.step_s * self.fs))
         self._fade = int(round(FADE_S * self.fs))
         self._stft = (SeparationContext.n_fft, SeparationContext.hop)
         self.embodiment = Embodiment(fs=self.fs, window_len=self.window_len, fade_len=self._fade,
@@ -198,7 +198,7 @@ class HearNavEnv(gym.Env):
     def _begin(self):
         world, plan = self.world, self.plan
         n = world.listening.signal_length(self.config.budget + 1 + MAX_LEAD_IN)
-        signals = render_signals(plan, n, self.fs)
+        signals = dry_signals(plan, n, self.fs)
         sources = [Source(p.spot, x) for p, x in zip(plan.sources, signals)]
         self._session = ListeningSession(world.listening, sources, target=0, target_image=self.separator.privileged)
         self.cell, self.heading = plan.start_cell, plan.start_heading
@@ -215,7 +215,7 @@ class HearNavEnv(gym.Env):
                 break
         if self.si_sdr_db is None:
             raise ConfigError(f"the target ({plan.sources[0].category}) is silent for {MAX_LEAD_IN + 1} windows "
-                              f"(expected a sounding target); use longer hop_s or another category")
+                              f"(expected a sounding target); use longer step_s or another category")
         return self._obs(), self._info()
 
     def step(self, action):
@@ -253,7 +253,7 @@ class HearNavEnv(gym.Env):
         score, ear = _scores(scored.reference, estimate, self._ear(scored.mixture, ctx, trusted=True))
         self.target_active = score is not None
         if score is not None:
-            self.si_sdr_db, self.mixture_si_sdr_db = score, ear
+            self.si_sdr_db, self.ear_si_sdr_db = score, ear
 
     # -- separation ----------------------------------------------------------------------------------------------
 
@@ -324,10 +324,10 @@ class HearNavEnv(gym.Env):
 
     def _info(self) -> dict[str, Any]:
         grid = self.world.grid
-        x, y = grid.centers[self.cell].tolist()
+        x, y = grid.centres[self.cell].tolist()
         return {
             "si_sdr_db": float(self.si_sdr_db),
-            "mixture_si_sdr_db": float(self.mixture_si_sdr_db),
+            "ear_si_sdr_db": float(self.ear_si_sdr_db),
             "pose": {"cell": int(self.cell), "x": x, "y": y, "heading": int(self.heading),
                      "heading_deg": math.degrees(grid.heading_angle(self.heading))},
             "collided": bool(self.collided),
@@ -352,6 +352,6 @@ class HearNavEnv(gym.Env):
     def render(self):
         if self.render_mode != "rgb_array" or self.world is None:
             return None
-        from hearnav.env.render import draw_frame
+        from hearnav.env.frames import draw_frame
 
         return draw_frame(self)

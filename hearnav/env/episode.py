@@ -66,7 +66,7 @@ def check_categories(cfg: EnvConfig) -> None:
 
 
 def _start(grid: Grid, target_xy: np.ndarray, min_dist: float, rng: np.random.Generator) -> int:
-    dist = np.linalg.norm(grid.centers - target_xy, axis=1)
+    dist = np.linalg.norm(grid.centres - target_xy, axis=1)
     for pool in (grid.start_cells, np.arange(grid.n_cells)):
         far = pool[dist[pool] >= min_dist]
         if far.size:
@@ -105,7 +105,7 @@ def draw_episode(rng: np.random.Generator, cfg: EnvConfig, scene_name: str, scen
     return EpisodePlan(scene_name, tuple(plans), start, heading)
 
 
-def render_signals(plan: EpisodePlan, n_samples: int, fs: int) -> list[np.ndarray]:
+def dry_signals(plan: EpisodePlan, n_samples: int, fs: int) -> list[np.ndarray]:
     """Dry signals of every source, level-adjusted, ``n_samples`` long (each clip generated once into the store,
     :func:`hearnav.tables.dry_signal`)."""
     return [(dry_signal(s.category, s.pool, s.voice, s.take, n_samples, fs) * np.float32(10 ** (s.level_db / 20)))

@@ -58,7 +58,7 @@ def segment_matrix(centres: np.ndarray, n: int, n_segments: int) -> np.ndarray:
     if (counts == 0).any():
         most = max(k for k in range(1, n_segments + 1) if (_frame_counts(centres, n, k) > 0).all())
         raise ConfigError(f"n_segments too large for {n}-sample windows (expected at most {most} segments of one "
-                          f"feature frame or more, got {n_segments}); lower n_segments or raise hop_s")
+                          f"feature frame or more, got {n_segments}); lower n_segments or raise step_s")
     m = np.zeros((len(centres), n_segments), np.float32)
     m[np.arange(len(centres)), _segment_of(centres, n, n_segments)] = 1.0
     return m / counts

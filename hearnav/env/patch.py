@@ -80,7 +80,7 @@ class PoseViews:
                               for c in range(grid.n_cells)])  # (C, H, P, P)
         angles = heading_angles(grid.n_headings)  # (H,)
         seen = line_of_sight[:, None, :] & (np.abs(bearing) <= fov_rad / 2 + 1e-9)
-        cells = (np.asarray(spots_xy, float)[None] - grid.centers[:, None]) / grid.spacing  # (C, S, 2)
+        cells = (np.asarray(spots_xy, float)[None] - grid.centres[:, None]) / grid.spacing  # (C, S, 2)
         cos, sin = np.cos(angles)[None, :, None], np.sin(angles)[None, :, None]
         ahead = cells[:, None, :, 0] * cos + cells[:, None, :, 1] * sin  # (C, H, S) cells ahead
         left = cells[:, None, :, 1] * cos - cells[:, None, :, 0] * sin  # cells to the left

@@ -23,7 +23,7 @@ def spot_directions(grid: Grid, spots_xy: np.ndarray) -> tuple[np.ndarray, np.nd
     distance : (C, S) metres from each cell centre to each spot.
     bearing : (C, H, S) radians in [-pi, pi), counter-clockwise from the heading.
     """
-    d = np.asarray(spots_xy, float)[None] - grid.centers[:, None]  # (C, S, 2)
+    d = np.asarray(spots_xy, float)[None] - grid.centres[:, None]  # (C, S, 2)
     bearing = bearing_of(d[:, None, :, 0], d[:, None, :, 1], heading_angles(grid.n_headings)[None, :, None])
     return np.hypot(d[..., 0], d[..., 1]), bearing
 

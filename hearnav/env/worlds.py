@@ -37,7 +37,7 @@ def get_views(name: str, settings: AcousticSettings, size: int, fov_rad: float) 
     return scene_tables.pose_views(load_named(name), settings, size, fov_rad)
 
 
-def resolve_scenes(scenes: str | list[str], procedural_pool: int) -> tuple[str, ...]:
+def scene_list(scenes: str | list[str], procedural_pool: int) -> tuple[str, ...]:
     """Scene names from a split, 'procedural' (gen-0 .. gen-(pool-1)), or a list of names (each checked)."""
     if isinstance(scenes, str):
         if scenes in SPLITS:

@@ -17,7 +17,7 @@ def draw_plan(ax, scene: Scene, grid: Grid | None = None, label_spots: bool = Tr
     for ob in scene.obstacles:
         ax.add_patch(Polygon(ob.polygon, closed=True, fc="0.35" if ob.full_height else "0.72", ec="0.2", lw=0.8))
     if grid is not None and grid.n_cells:
-        c = grid.centers
+        c = grid.centres
         ax.scatter(c[:, 0], c[:, 1], s=6, c="tab:blue", alpha=0.45, lw=0, label="navigable cells")
         x0, y0, x1, y1 = scene.spec.grid.start_region.box
         ax.add_patch(Rectangle((x0, y0), x1 - x0, y1 - y0, fill=False, ec="tab:green", ls="--", lw=1.2,

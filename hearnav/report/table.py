@@ -23,7 +23,7 @@ def format_table(result: Summary) -> str:
     """A plain-text table of a :class:`Summary`.
 
     Columns: policy, privileged, n (episodes finished ``"ok"``), failures, then mean [95 % CI] of
-    gain dB, final SI-SDR dB and normalized gain, then the paired difference in gain dB against the
+    gain dB, final SI-SDR dB and normalised gain, then the paired difference in gain dB against the
     reference (mean [CI]), the number of episode pairs it uses, and its Wilcoxon p-value. Undefined numbers
     print as ``n/a``.
 
@@ -38,7 +38,7 @@ def format_table(result: Summary) -> str:
         Lines separated by ``"\\n"``, no trailing newline.
     """
     reference = result.reference
-    header = ["policy", "privileged", "n", "failures", "gain dB", "final SI-SDR dB", "normalized gain",
+    header = ["policy", "privileged", "n", "failures", "gain dB", "final SI-SDR dB", "normalised gain",
               f"vs {reference}: diff dB", "pairs", "p"]
     body: list[list[str]] = []
     for name, entry in result.policies.items():

@@ -244,7 +244,7 @@ def air_regions(scene: Scene) -> tuple[np.ndarray, np.ndarray, float]:
 def check_audible(scene: Scene, grid, problems: Problems) -> None:
     """Every spot must share air with at least one reachable cell."""
     origin, labels, step = air_regions(scene)
-    cells = np.round((grid.centers - origin) / step).astype(int)
+    cells = np.round((grid.centres - origin) / step).astype(int)
     reachable = set(np.unique(labels[cells[:, 0], cells[:, 1]]).tolist()) - {0}
     for k, sp in enumerate(scene.spots):
         i, j = np.round((sp.position[:2] - origin) / step).astype(int)

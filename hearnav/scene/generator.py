@@ -286,7 +286,7 @@ def _acceptable(scene: Scene, rooms: list[tuple[float, ...]]) -> bool:
     grid = build_grid(scene)
     if grid.n_cells > MAX_CELLS or grid.start_cells.size < 3:
         return False
-    c = grid.centers
+    c = grid.centres
     for x0, y0, x1, y1 in rooms:
         if not np.any((c[:, 0] > x0) & (c[:, 0] < x1) & (c[:, 1] > y0) & (c[:, 1] < y1)):
             return False

@@ -47,7 +47,7 @@ class Grid:
         return int(self.ij.shape[0])
 
     @functools.cached_property
-    def centers(self) -> np.ndarray:
+    def centres(self) -> np.ndarray:
         """(n_cells, 2) cell centres in metres (read-only)."""
         out = self.origin + self.ij * self.spacing
         out.flags.writeable = False
@@ -93,7 +93,7 @@ class Grid:
 
     def cell_at(self, xy: np.ndarray) -> int:
         """The cell whose centre is nearest to ``xy`` among navigable cells."""
-        d = np.linalg.norm(self.centers - np.asarray(xy, dtype=float), axis=1)
+        d = np.linalg.norm(self.centres - np.asarray(xy, dtype=float), axis=1)
         return int(np.argmin(d))
 
 

@@ -208,7 +208,7 @@ def test_load_or_build_reports_one_line_and_rebuilds(built, scene, fast_settings
     assert lines[0].startswith(str(path)) and lines[0].endswith("; rebuilding")
     expected = "cache checksum mismatch" if damage == "tamper" else "unreadable cache file"
     assert expected in lines[0]
-    assert sum(rendered) == len(responses.centers)  # really rebuilt
+    assert sum(rendered) == len(responses.centres)  # really rebuilt
     assert_same_responses(again, responses)
     assert_same_responses(cache.load(path, key), responses)  # and the file is valid again
 
@@ -279,7 +279,7 @@ def test_two_processes_building_at_once_leave_one_valid_file(private_cache, fast
         w.join(timeout=60)
         assert w.exitcode == 0
     assert got[0][0] != got[1][0]  # two different processes
-    n_cells = len(got[0][2]["centers"])
+    n_cells = len(got[0][2]["centres"])
     # the build lock lets one build while the other waits and then loads its file
     assert sorted(g[1] for g in got) == [0, n_cells]
     files = sorted(p.name for p in private_cache.iterdir())
@@ -302,7 +302,7 @@ def test_equal_seeds_give_equal_results_and_another_seed_changes_only_the_tail(s
     assert_same_responses(one, two)
     other = build_responses(scene, grid, fast_settings.model_copy(update={"seed": 7}))
     # the image-source early part does not depend on the seed ...
-    for name in ("early", "first_delay", "first_gain", "line_of_sight", "centers"):
+    for name in ("early", "first_delay", "first_gain", "line_of_sight", "centres"):
         assert np.array_equal(getattr(other, name), getattr(one, name)), name
     # ... the noise-based tail does, all over
     assert other.tail.shape == one.tail.shape

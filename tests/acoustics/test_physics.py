@@ -42,7 +42,7 @@ def test_direct_path_delay_and_inverse_distance(anechoic):
     levels = []
     for r in (1.0, 2.0, 4.0):
         cell = _cell(grid, 7.0 - r, 2.0 - 0.25)
-        dist = float(np.linalg.norm(np.r_[grid.centers[cell], 1.5] - scene.spots[0].position))
+        dist = float(np.linalg.norm(np.r_[grid.centres[cell], 1.5] - scene.spots[0].position))
         h = resp.response(cell, 2, 0).astype(float)
         peak = int(np.argmax(np.abs(h[0])))
         assert abs(peak - RESPONSE_LEAD - dist / C * FS) <= 1.0
@@ -56,7 +56,7 @@ def test_direct_delay_matches_pyroomacoustics(anechoic):
     # Reference library: pyroomacoustics' own RIR peaks at r/c plus its fixed 40-sample lead.
     scene, grid, resp = anechoic
     cell = _cell(grid, 3.0, 1.75)
-    rx = np.r_[grid.centers[cell], 1.5]
+    rx = np.r_[grid.centres[cell], 1.5]
     rir = room.reference_rir(scene, ANECHOIC, scene.spots[0].position, rx, ism_order=0, ray_tracing=False)
     pra_delay = (int(np.argmax(np.abs(rir))) - room.pra_lead()) / FS
     assert resp.first_delay[cell, 0] == pytest.approx(pra_delay, abs=1.0 / FS)
@@ -71,7 +71,7 @@ def test_itd_by_cross_correlation(anechoic):
     lag_side = _lag(resp.response(cell, 1, 0))
     lag_front = _lag(resp.response(cell, 2, 0))
     src = scene.spots[0].position
-    rx = np.r_[grid.centers[cell], 1.5]
+    rx = np.r_[grid.centres[cell], 1.5]
     theta = np.arccos(np.clip(np.dot(src - rx, [1, 0, 0]) / np.linalg.norm(src - rx), -1, 1))
     expected = 0.0875 / C * ((np.pi / 2 - theta) + np.sin(np.pi / 2 - theta)) if theta < np.pi / 2 else 0.0
     assert abs(lag_side / FS - expected) <= 1.0 / FS  # left ear lags the right
@@ -90,7 +90,7 @@ def test_head_shadow_levels_and_ild_flip(anechoic):
     # interaural level difference changes sign when the heading turns 180 degrees.
     scene, grid, resp = anechoic
     cell = _cell(grid, 4.0, 1.75)
-    dist = float(np.linalg.norm(np.r_[grid.centers[cell], 1.5] - scene.spots[0].position))
+    dist = float(np.linalg.norm(np.r_[grid.centres[cell], 1.5] - scene.spots[0].position))
     n = 4096
     f = sfft.rfftfreq(n, 1 / FS)
     spec = np.abs(sfft.rfft(resp.response(cell, 1, 0).astype(float), n, axis=-1))
@@ -124,9 +124,9 @@ def test_rt60_against_eyring_and_sabine(reverberant):
     areas, absorption = scene.surfaces()
     eyring = float(decay.eyring(scene.volume, areas, absorption[:, 3]))
     sabine = float(decay.sabine(scene.volume, areas, absorption[:, 3]))
-    cell = int(np.argmax(np.linalg.norm(grid.centers - scene.spots[0].position[:2], axis=1)))
+    cell = int(np.argmax(np.linalg.norm(grid.centres - scene.spots[0].position[:2], axis=1)))
     h = resp.response(cell, 0, 0).astype(float).sum(axis=0)
-    rx = np.r_[grid.centers[cell], scene.ear_height]
+    rx = np.r_[grid.centres[cell], scene.ear_height]
     rir = room.reference_rir(scene, settings, scene.spots[0].position, rx)
     for evaluation in ("T20", "T30"):
         measured = decay.measure_rt60(h, FS, evaluation)
@@ -141,8 +141,8 @@ def test_tail_energy_matches_pyroomacoustics(reverberant):
     # Reference library: pyroomacoustics' own hybrid RIR (image sources + ray tracing) for the same room.
     # The late energy (after 60 ms) of our tail, averaged over the ears, agrees within 2 dB.
     scene, settings, grid, resp = reverberant
-    cell = int(np.argmax(np.linalg.norm(grid.centers - scene.spots[0].position[:2], axis=1)))
-    rx = np.r_[grid.centers[cell], scene.ear_height]
+    cell = int(np.argmax(np.linalg.norm(grid.centres - scene.spots[0].position[:2], axis=1)))
+    rx = np.r_[grid.centres[cell], scene.ear_height]
     rir = room.reference_rir(scene, settings, scene.spots[0].position, rx)
     start = int(0.06 * FS)
     ours = np.mean(np.sum(resp.response(cell, 0, 0).astype(float)[:, RESPONSE_LEAD + start:] ** 2, axis=1))
@@ -174,7 +174,7 @@ def test_occlusion_removes_the_direct_path():
     grid_o, resp_o = _build(open_, settings)
     cell_b, cell_o = _cell(grid_b, 1.5, 1.5), _cell(grid_o, 1.5, 1.5)
     assert not resp_b.line_of_sight[cell_b, 0] and resp_o.line_of_sight[cell_o, 0]
-    dist = float(np.linalg.norm(np.r_[grid_o.centers[cell_o], 1.5] - np.r_[spots[0]["position"], 1.5]))
+    dist = float(np.linalg.norm(np.r_[grid_o.centres[cell_o], 1.5] - np.r_[spots[0]["position"], 1.5]))
     assert resp_o.first_delay[cell_o, 0] == pytest.approx(dist / C, abs=1e-6)
     assert resp_b.first_delay[cell_b, 0] > dist / C + 1e-3  # the earliest path is now a longer reflection
 
@@ -188,8 +188,8 @@ def test_mirror_symmetry_swaps_the_ears():
     grid_a, ra = _build(a, settings)
     grid_b, rb = _build(b, settings)
     ca, cb = _cell(grid_a, 1.5, 1.5), _cell(grid_b, 1.5, 2.5)
-    np.testing.assert_allclose(grid_a.centers[ca], [1.5, 1.5])
-    np.testing.assert_allclose(grid_b.centers[cb], [1.5, 2.5])
+    np.testing.assert_allclose(grid_a.centres[ca], [1.5, 1.5])
+    np.testing.assert_allclose(grid_b.centres[cb], [1.5, 2.5])
     ea, eb = ra.early[ca, 0, 0].astype(float), rb.early[cb, 0, 0].astype(float)
     np.testing.assert_allclose(ea[0], eb[1], atol=2e-3 * np.abs(ea).max())
     np.testing.assert_allclose(ea[1], eb[0], atol=2e-3 * np.abs(ea).max())

@@ -18,7 +18,7 @@ def test_spots_and_cells_are_inside_the_room(name):
     r = pra.Room(room.room_walls(scene), fs=16000, max_order=1)
     assert all(r.is_inside(s.position) for s in scene.spots)
     grid = build_grid(scene)
-    assert all(r.is_inside(np.r_[c, scene.ear_height]) for c in grid.centers)
+    assert all(r.is_inside(np.r_[c, scene.ear_height]) for c in grid.centres)
     # the air volume pyroomacoustics computes equals the plan's (room minus solids) within 0.1 %
     assert r.get_volume() == pytest.approx(scene.volume, rel=1e-3)
 

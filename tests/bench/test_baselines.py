@@ -75,8 +75,8 @@ def test_approach_reaches_and_faces_the_target(make_env):
     for seed in range(2):
         out = run(env, "approach", seed=seed)
         view = env.unwrapped.privileged
-        centers = np.asarray(view.grid.centers)
-        dist = np.hypot(*(centers - view.target_xy).T)
+        centres = np.asarray(view.grid.centres)
+        dist = np.hypot(*(centres - view.target_xy).T)
         start, end = out["path"][0][0], out["path"][-1][0]
         # common practice (breadth-first search, Moore 1959): the shortest path ends at the nearest cell
         assert end == int(np.argmin(dist)) and dist[end] <= dist[start]

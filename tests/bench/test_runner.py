@@ -48,14 +48,14 @@ def test_rows_summary_and_resume(suite_file, tmp_path, capsys):
     rows = _rows(out)
     assert len(rows) == 6 and {r["policy"] for r in rows} == {"still", "random-walk"}
     for field in ("policy", "privileged", "scene", "episode_seed", "start_si_sdr_db", "final_si_sdr_db",
-                  "best_si_sdr_db", "gain_db", "oracle_si_sdr_db", "normalized_gain", "path_length_m", "steps",
+                  "best_si_sdr_db", "gain_db", "oracle_si_sdr_db", "normalised_gain", "path_length_m", "steps",
                   "collisions", "status", "error"):
         assert all(field in r for r in rows), field
     summary = json.loads((out / "summary.json").read_text())
     assert set(summary["policies"]) == {"still", "random-walk"}
     for entry in summary["policies"].values():
         assert entry["episodes"] == 3 and entry["failures"] == 0
-        for metric in ("gain_db", "final_si_sdr_db", "normalized_gain"):
+        for metric in ("gain_db", "final_si_sdr_db", "normalised_gain"):
             assert set(entry[metric]) == {"mean", "ci95", "n"}
     comparison = summary["comparisons"]["random-walk"]
     assert set(comparison) >= {"mean_difference", "ci95", "wilcoxon_p"}

@@ -116,7 +116,7 @@ def test_paired_comparison_small_and_bad_input():
 
 def ep(policy, seed, status="ok", gain=None, final=None, norm=None, privileged=False, **extra):
     return {"policy": policy, "episode_seed": seed, "status": status, "gain_db": gain, "final_si_sdr_db": final,
-            "normalized_gain": norm, "privileged": privileged, **extra}
+            "normalised_gain": norm, "privileged": privileged, **extra}
 
 
 ROWS = [
@@ -142,7 +142,7 @@ def test_summarise_counts_failures_and_excludes_them_from_means():
     assert (walker["episodes"], walker["ok"], walker["failures"], walker["privileged"]) == (5, 4, 1, False)
     assert walker["gain_db"]["n"] == 4 and walker["gain_db"]["mean"] == pytest.approx(6.0)
     assert walker["final_si_sdr_db"]["mean"] == pytest.approx(1.0)
-    assert walker["normalized_gain"]["mean"] == pytest.approx(0.725)
+    assert walker["normalised_gain"]["mean"] == pytest.approx(0.725)
     assert s.policies["still"]["failures"] == 1 and s.policies["still"]["gain_db"]["mean"] == pytest.approx(1.0)
     assert s.policies["oracle"]["privileged"] is True
     assert s.reference_missing is False and s.reference == "still"

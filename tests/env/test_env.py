@@ -113,7 +113,7 @@ def test_moves_turns_and_collisions(make_env):
 def test_info_contents(make_env):
     env = make_env()
     _, info = env.reset(seed=2)
-    keys = {"si_sdr_db", "mixture_si_sdr_db", "pose", "collided", "target_active", "step", "scene", "sources"}
+    keys = {"si_sdr_db", "ear_si_sdr_db", "pose", "collided", "target_active", "step", "scene", "sources"}
     assert set(info) == keys | {"embodiment"}
     assert info["embodiment"] is env.embodiment
     assert info["sources"][0]["role"] == "target" and 2 <= len(info["sources"]) <= 4

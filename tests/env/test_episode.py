@@ -63,5 +63,5 @@ def test_start_is_a_start_cell_far_enough_from_the_target(room):
     for plan in plans:
         assert plan.start_cell in set(grid.start_cells.tolist())
         target = scene.spots[plan.sources[0].spot].position[:2]
-        assert np.hypot(*(grid.centers[plan.start_cell] - target)) >= 2.5
+        assert np.hypot(*(grid.centres[plan.start_cell] - target)) >= 2.5
         assert 0 <= plan.start_heading < grid.n_headings

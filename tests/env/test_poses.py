@@ -34,7 +34,7 @@ def test_spot_directions_equal_the_plane_geometry_of_each_pose(world):
     distance, bearing = spot_directions(grid, spots)
     assert distance.shape == (grid.n_cells, len(spots)) and bearing.shape == (grid.n_cells, grid.n_headings, len(spots))
     for cell in range(0, grid.n_cells, 7):
-        x, y = grid.centers[cell]
+        x, y = grid.centres[cell]
         for heading in range(grid.n_headings):
             for s, (sx, sy) in enumerate(spots):
                 b = math.atan2(sy - y, sx - x) - 2 * math.pi * heading / grid.n_headings

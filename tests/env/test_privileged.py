@@ -46,7 +46,7 @@ def test_last_window_is_what_was_scored(make_env):
 
 
 def test_embodiment_is_the_environments_own(make_env):
-    env = make_env(n_bands=16, hop_s=0.4)
+    env = make_env(n_bands=16, step_s=0.4)
     _, info = env.reset(seed=0)
     body = info["embodiment"]
     acoustics = env.config.acoustics

@@ -26,7 +26,7 @@ def _mean_scores(scene, separator):
     env = HearNavEnv(scenes=[scene], separator=separator, distractors=(1, 1), distractor_level_db=(0.0, 0.0),
                      target_category="noise", acoustics={"ism_order": 1, "n_rays": 300, "max_response_s": 0.1})
     rows = [env.reset(seed=seed)[1] for seed in range(6)]
-    return np.mean([r["si_sdr_db"] for r in rows]), np.mean([r["mixture_si_sdr_db"] for r in rows])
+    return np.mean([r["si_sdr_db"] for r in rows]), np.mean([r["ear_si_sdr_db"] for r in rows])
 
 
 @pytest.mark.parametrize("separator, margin", [("delay-and-sum", 10.0), ("mvdr", 20.0)])

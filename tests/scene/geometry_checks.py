@@ -13,6 +13,6 @@ def grid_moves_cross_solids(scene, grid) -> int:
         for heading in range(grid.n_headings):
             target = grid.forward(cell, heading)
             if target >= 0:
-                segments.append(shapely.LineString([grid.centers[cell], grid.centers[target]]))
+                segments.append(shapely.LineString([grid.centres[cell], grid.centres[target]]))
     segments = np.array(segments, dtype=object)
     return int(np.sum(shapely.intersects(solids, segments) | ~shapely.within(segments, room)))

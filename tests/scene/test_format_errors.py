@@ -377,6 +377,8 @@ def test_unknown_spot_category(scene_edit):
 
 
 def test_spot_categories_may_name_a_registered_plug_in(scene_edit):
+    import numpy as np
+
     from hearnav import sounds
 
     sounds.register_category("user-bell", lambda v, p, t, d, fs: np.sin(np.arange(round(d * fs)) * 0.3))

@@ -40,13 +40,13 @@ def grid_of(data: dict, n_headings: int = 4):
 
 def cell(grid, x: float, y: float) -> int:
     """The id of the cell centred at (x, y); fails when there is none."""
-    hits = np.nonzero(np.all(np.isclose(grid.centers, [x, y]), axis=1))[0]
+    hits = np.nonzero(np.all(np.isclose(grid.centres, [x, y]), axis=1))[0]
     assert hits.size == 1, f"no cell at ({x}, {y})"
     return int(hits[0])
 
 
 def has_cell(grid, x: float, y: float) -> bool:
-    return bool(np.any(np.all(np.isclose(grid.centers, [x, y]), axis=1)))
+    return bool(np.any(np.all(np.isclose(grid.centres, [x, y]), axis=1)))
 
 
 # A wall from the south wall at x = 3 (thickness 0.1, so faces at 2.95 and 3.05) splits a 6 x 4 m room.
@@ -81,8 +81,8 @@ def test_hand_computed_3x2_room(room_3x2):
     g = room_3x2
     assert LISTENER_RADIUS == 0.2  # the project's body radius of the listener (common practice)
     assert g.n_cells == 24
-    xs = np.unique(np.round(g.centers[:, 0], 9))
-    ys = np.unique(np.round(g.centers[:, 1], 9))
+    xs = np.unique(np.round(g.centres[:, 0], 9))
+    ys = np.unique(np.round(g.centres[:, 1], 9))
     np.testing.assert_allclose(xs, [0.25, 0.75, 1.25, 1.75, 2.25, 2.75])
     np.testing.assert_allclose(ys, [0.25, 0.75, 1.25, 1.75])
     np.testing.assert_allclose(g.origin, [0.25, 0.25])
@@ -98,8 +98,8 @@ def test_narrower_room_loses_the_outer_cells():
     # lattice keeps 5 x 3 = 15 cells (x = 0.25..2.25, y = 0.25..1.25).
     g = grid_of(empty_room(2.9, 1.9))
     assert g.n_cells == 15
-    assert g.centers[:, 0].max() == pytest.approx(2.25)
-    assert g.centers[:, 1].max() == pytest.approx(1.25)
+    assert g.centres[:, 0].max() == pytest.approx(2.25)
+    assert g.centres[:, 1].max() == pytest.approx(1.25)
 
 
 @pytest.mark.parametrize("which", ["base", "maple"])
@@ -112,20 +112,20 @@ def test_cell_centres_are_clear_of_every_surface_and_on_free_floor(which, base_s
     assert g.n_cells > 0
     room = shapely.Polygon(scene.outline)
     solids = [shapely.Polygon(ob.polygon) for ob in scene.obstacles]
-    for x, y in g.centers:
+    for x, y in g.centres:
         p = shapely.Point(x, y)
         assert room.contains(p)
         assert room.exterior.distance(p) >= LISTENER_RADIUS - 1e-9
         for solid in solids:
             assert not solid.contains(p)
             assert solid.exterior.distance(p) >= LISTENER_RADIUS - 1e-9
-    assert np.all(shapely.contains_xy(free_floor(scene), g.centers[:, 0], g.centers[:, 1]))
+    assert np.all(shapely.contains_xy(free_floor(scene), g.centres[:, 0], g.centres[:, 1]))
 
 
 def test_low_obstacles_also_remove_floor(base_scene):
     # the 0.75 m table is low, but the listener cannot stand in it: no cell within 0.2 m of its box [1, 1, 2, 1.8]
     g = build_grid(from_dict(base_scene, "base.yaml"))
-    x, y = g.centers[:, 0], g.centers[:, 1]
+    x, y = g.centres[:, 0], g.centres[:, 1]
     near_table = (x > 1.0 - 0.2) & (x < 2.0 + 0.2) & (y > 1.0 - 0.2) & (y < 1.8 + 0.2)
     assert not np.any(near_table)
 
@@ -134,10 +134,10 @@ def test_start_cells_lie_in_the_start_region(base_scene):
     g = build_grid(from_dict(base_scene, "base.yaml"))
     x0, y0, x1, y1 = base_scene["grid"]["start_region"]["box"]
     assert g.start_cells.size > 0
-    c = g.centers[g.start_cells]
+    c = g.centres[g.start_cells]
     assert np.all((c[:, 0] >= x0) & (c[:, 0] <= x1) & (c[:, 1] >= y0) & (c[:, 1] <= y1))
     others = np.setdiff1d(np.arange(g.n_cells), g.start_cells)
-    c = g.centers[others]
+    c = g.centres[others]
     assert not np.any((c[:, 0] >= x0) & (c[:, 0] <= x1) & (c[:, 1] >= y0) & (c[:, 1] <= y1))
 
 
@@ -167,7 +167,7 @@ def test_region_behind_a_full_partition_is_excluded():
     assert np.any(origin[0] + gi * 0.5 > 3.0)
     assert np.any(np.isclose(origin[0] + gi * 0.5, 3.25))
     # ...but none of them is 4-connected to the start region, so none is kept
-    assert np.all(g.centers[:, 0] < 3.0)
+    assert np.all(g.centres[:, 0] < 3.0)
     # x = 0.25..2.75 is 6 columns, y = 0.25..3.75 is 8 rows: 48 cells west of the wall
     assert g.n_cells == 48
     assert not has_cell(g, 3.25, 1.75)
@@ -213,9 +213,9 @@ def test_every_open_move_keeps_the_listener_clear(maple, n_headings):
             n = g.forward(c, h)
             if n >= 0:
                 n_open += 1
-                segment = shapely.LineString([g.centers[c], g.centers[n]])
+                segment = shapely.LineString([g.centres[c], g.centres[n]])
                 assert surfaces.distance(segment) >= LISTENER_RADIUS - 1e-9, (c, h)
-                assert np.allclose(g.centers[n] - g.centers[c], g.step(h) * g.spacing)
+                assert np.allclose(g.centres[n] - g.centres[c], g.step(h) * g.spacing)
     assert n_open > g.n_cells  # most cells have somewhere to go
 
 
@@ -224,7 +224,7 @@ def test_start_region_in_the_sealed_part_keeps_only_that_part():
     data["grid"]["start_region"]["box"] = [3.5, 0.5, 5.5, 3.5]
     data["spots"] = [{"name": "east", "position": [4.5, 2.0], "height": 1.2}]
     g = grid_of(data)
-    assert np.all(g.centers[:, 0] > 3.0)
+    assert np.all(g.centres[:, 0] > 3.0)
     assert g.n_cells == 48
 
 
@@ -336,7 +336,7 @@ def test_diagonal_moves_do_not_cross_a_thin_wall():
 def test_cell_at_each_centre_is_that_cell(room_3x2):
     g = room_3x2
     for c in range(g.n_cells):
-        assert g.cell_at(g.centers[c]) == c
+        assert g.cell_at(g.centres[c]) == c
 
 
 def test_cell_at_picks_the_nearest_centre(room_3x2):

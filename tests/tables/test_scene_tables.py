@@ -70,7 +70,7 @@ def test_stored_pose_tables_are_the_plane_geometry_of_each_pose(scene):
     grid = tables.grid
     spots = scene.spots_xy
     for cell in range(0, grid.n_cells, 7):
-        x, y = grid.centers[cell]
+        x, y = grid.centres[cell]
         for heading in range(grid.n_headings):
             for s, (sx, sy) in enumerate(spots):
                 b = math.atan2(sy - y, sx - x) - 2 * math.pi * heading / grid.n_headings

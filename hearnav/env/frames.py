@@ -20,9 +20,9 @@ def draw_frame(env, size_px: int = 480) -> np.ndarray:
     for k, src in enumerate(plan.sources):
         xy = world.scene.spots[src.spot].position[:2]
         ax.scatter(*xy, marker="*", s=260 if k == 0 else 160, c="red" if k == 0 else "0.45", ec="k", zorder=6)
-    path = np.array([grid.centers[c] for c, _ in env.path])
+    path = np.array([grid.centres[c] for c, _ in env.path])
     ax.plot(path[:, 0], path[:, 1], "-", c="tab:purple", lw=2, alpha=0.8, zorder=7)
-    x, y = grid.centers[env.cell]
+    x, y = grid.centres[env.cell]
     a = grid.heading_angle(env.heading)
     ax.arrow(x, y, 0.35 * np.cos(a), 0.35 * np.sin(a), width=0.06, color="tab:purple", zorder=8)
     ax.set_title(f"step {env.steps}: SI-SDR {env.si_sdr_db:.1f} dB", fontsize=8)
