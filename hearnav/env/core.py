@@ -21,7 +21,7 @@ from hearnav.env.episode import (
 )
 from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor, band_edges
 from hearnav.env.privileged import PrivilegedView
-from hearnav.env.worlds import World, get_views, get_world, scene_list
+from hearnav.env.worlds import World, get_maps, get_world, scene_list
 from hearnav.errors import ConfigError, HearnavError
 from hearnav.listening import FADE_S, ListeningSession, Source, Window
 from hearnav.separation import SeparationContext, get_separator
@@ -206,7 +206,7 @@ class HearNavEnv(gym.Env):
         self._path = [(self.cell, self.heading)]
         self._spot_ids = [p.spot for p in plan.sources]
         self._poses = world.poses  # the scene's tables, memory-mapped from the store
-        self._views = get_views(plan.scene, self.config.acoustics, self.config.patch_size, self._fov)
+        self._views = get_maps(plan.scene, self.config.acoustics, self.config.patch_size, self._fov)
         self._source_info = [p.info(world.scene) for p in plan.sources]
         self.si_sdr_db = None
         for _ in range(MAX_LEAD_IN + 1):  # a target that starts in a pause: listen on until it sounds

@@ -5,7 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from hearnav.acoustics import AcousticSettings
-from hearnav.env.patch import PoseViews
+from hearnav.tables.maps import PoseMaps
 from hearnav.errors import ConfigError
 from hearnav.listening import ListeningWorld
 from hearnav.scene.format import SPLITS
@@ -32,9 +32,9 @@ def get_world(name: str, settings: AcousticSettings, window_len: int) -> World:
     return World(scene, poses.grid, poses, ListeningWorld(scene_tables.response_spectra(scene, settings, window_len)))
 
 
-def get_views(name: str, settings: AcousticSettings, size: int, fov_rad: float) -> PoseViews:
-    """The egocentric maps of every pose of a named scene (:func:`hearnav.tables.pose_views`)."""
-    return scene_tables.pose_views(load_named(name), settings, size, fov_rad)
+def get_maps(name: str, settings: AcousticSettings, size: int, fov_rad: float) -> PoseMaps:
+    """The egocentric maps of every pose of a named scene (:func:`hearnav.tables.pose_maps`)."""
+    return scene_tables.pose_maps(load_named(name), settings, size, fov_rad)
 
 
 def scene_list(scenes: str | list[str], procedural_pool: int) -> tuple[str, ...]:

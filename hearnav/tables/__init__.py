@@ -6,8 +6,8 @@ Parts live in ``tables/`` and ``sounds/`` beside the response cache (``HEARNAV_C
 their keys, and :mod:`hearnav.tables.sounds` for the dry sounds.
 """
 
-from hearnav.tables.scene import PoseTables, pose_tables, pose_views, response_spectra
+from hearnav.tables.scene import PoseTables, pose_tables, pose_maps, response_spectra
 from hearnav.tables.sounds import dry_signal, sounds_dir
 from hearnav.tables.store import tables_dir
 
-__all__ = ["PoseTables", "dry_signal", "pose_tables", "pose_views", "response_spectra", "sounds_dir", "tables_dir"]
+__all__ = ["PoseTables", "dry_signal", "pose_tables", "pose_maps", "response_spectra", "sounds_dir", "tables_dir"]

@@ -24,7 +24,7 @@ from hearnav import listening
 from hearnav.acoustics import synthesis
 from hearnav.acoustics.cache import cache_key, load_or_build
 from hearnav.acoustics.settings import AcousticSettings
-from hearnav.env import patch, poses
+from hearnav.tables import maps, poses
 from hearnav.physics import geometry, head, steering
 from hearnav.scene import grid as grid_module
 from hearnav.scene.grid import Grid, build_grid
@@ -122,15 +122,15 @@ def response_spectra(scene: Scene, settings: AcousticSettings, window_len: int,
                                      part["fits"], pt.first_delay, pt.first_gain)
 
 
-def pose_views(scene: Scene, settings: AcousticSettings, size: int, fov_rad: float) -> patch.PoseViews:
-    """The scene's egocentric maps (:class:`hearnav.env.patch.PoseViews`) for a patch size and field of view."""
-    key = digest("maps", poses_key(scene, settings), int(size), repr(float(fov_rad)), source_digest(patch))
+def pose_maps(scene: Scene, settings: AcousticSettings, size: int, fov_rad: float) -> maps.PoseMaps:
+    """The scene's egocentric maps (:class:`hearnav.tables.maps.PoseMaps`) for a patch size and field of view."""
+    key = digest("maps", poses_key(scene, settings), int(size), repr(float(fov_rad)), source_digest(maps))
 
     def build(out: PartWriter) -> None:
         pt = pose_tables(scene, settings)
-        views = patch.PoseViews.build(pt.grid, scene.spots_xy, pt.bearing, pt.line_of_sight, size, fov_rad)
+        views = maps.PoseMaps.build(pt.grid, scene.spots_xy, pt.bearing, pt.line_of_sight, size, fov_rad)
         out.put("occupancy", views.occupancy)
         out.put("pixel", views.pixel)
 
     part = open_part(_folder(scene, "maps", key), key, ("occupancy", "pixel"), build)
-    return patch.PoseViews(part["occupancy"], part["pixel"])
+    return maps.PoseMaps(part["occupancy"], part["pixel"])

@@ -18,13 +18,13 @@ import pytest
 
 from hearnav.acoustics import AcousticSettings
 from hearnav.acoustics.cache import load_or_build
-from hearnav.env.patch import occupancy_patch
+from hearnav.tables.maps import occupancy_patch
 from hearnav.scene.grid import build_grid
 from hearnav.scene.library import load_named
 from hearnav.separation import steering_vector
 from hearnav.separation.beamform import das_weights
 from hearnav.separation.stft import stft_freqs
-from hearnav.tables import pose_tables, pose_views, response_spectra, store, tables_dir
+from hearnav.tables import pose_tables, pose_maps, response_spectra, store, tables_dir
 from tests.conftest import make_scene
 from tests.world_fixtures import FAST_ACOUSTICS, ROOM
 
@@ -98,7 +98,7 @@ def test_the_stored_grid_and_maps_are_those_of_the_scene(scene):
         np.testing.assert_array_equal(getattr(tables.grid, name), getattr(built, name))
     assert [tables.grid.forward(c, h) for c in range(built.n_cells) for h in range(4)] == \
         [built.forward(c, h) for c in range(built.n_cells) for h in range(4)]
-    views = pose_views(scene, SETTINGS, 9, math.radians(120))
+    views = pose_maps(scene, SETTINGS, 9, math.radians(120))
     for cell, heading in [(0, 0), (5, 3), (built.n_cells - 1, 2)]:
         np.testing.assert_array_equal(views.occupancy[cell, heading], occupancy_patch(built, cell, heading, 9))
 
@@ -109,16 +109,16 @@ def _folders() -> set[str]:
 
 def test_parts_are_reused_for_identical_inputs_only(scene):
     response_spectra(scene, SETTINGS, WINDOW)
-    pose_views(scene, SETTINGS, 9, 1.0)
+    pose_maps(scene, SETTINGS, 9, 1.0)
     before = _folders()
     mtimes = {name: os.stat(tables_dir() / name).st_mtime_ns for name in before}
     store.forget_open()
     response_spectra(scene, SETTINGS, WINDOW)  # identical inputs: the same folders, untouched
-    pose_views(scene, SETTINGS, 9, 1.0)
+    pose_maps(scene, SETTINGS, 9, 1.0)
     assert _folders() == before
     assert {name: os.stat(tables_dir() / name).st_mtime_ns for name in before} == mtimes
     response_spectra(scene, SETTINGS, WINDOW + 16)  # another window: new spectra only (poses do not depend on it)
-    pose_views(scene, SETTINGS, 7, 1.0)  # another patch size: new maps only
+    pose_maps(scene, SETTINGS, 7, 1.0)  # another patch size: new maps only
     new = _folders() - before
     assert sorted(name.split("-")[-2] for name in new) == ["maps", "spectra"]
 

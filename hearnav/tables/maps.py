@@ -49,7 +49,7 @@ def occupancy_patch(grid: Grid, cell: int, heading: int, size: int) -> np.ndarra
 
 
 @dataclass(frozen=True)
-class PoseViews:
+class PoseMaps:
     """Egocentric maps of every pose of a scene: each pose's occupancy and where each spot shows.
 
     Attributes
@@ -63,7 +63,7 @@ class PoseViews:
 
     @classmethod
     def build(cls, grid: Grid, spots_xy: np.ndarray, bearing: np.ndarray, line_of_sight: np.ndarray, size: int,
-              fov_rad: float) -> PoseViews:
+              fov_rad: float) -> PoseMaps:
         """The maps of a scene.
 
         Parameters
@@ -71,7 +71,7 @@ class PoseViews:
         grid : the scene's grid.
         spots_xy : (n_spots, 2) spot positions (m).
         bearing : (n_cells, n_headings, n_spots) each spot's bearing from each pose, radians in [-pi, pi)
-            (:func:`hearnav.env.poses.spot_directions`).
+            (:func:`hearnav.tables.poses.spot_directions`).
         line_of_sight : (n_cells, n_spots) bool, a spot in line of sight of a cell centre.
         size : patch side in cells (odd).
         fov_rad : field of view, radians: a spot shows when in line of sight and within half of it of the heading.

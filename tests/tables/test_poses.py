@@ -12,7 +12,7 @@ import math
 import numpy as np
 import pytest
 
-from hearnav.env.poses import fill_das, spot_directions
+from hearnav.tables.poses import fill_das, spot_directions
 from hearnav.separation import SeparationContext, steering_vector
 from hearnav.separation.beamform import das_weights
 from hearnav.physics.steering import das_conjugates
