@@ -20,7 +20,7 @@ if TYPE_CHECKING:
 from hearnav.scene.grid import Grid
 from hearnav.scene.model import Scene
 
-#: Cells rendered per batch (fixed, so that the tail noise does not depend on anything but the seed).
+#: Cells synthesised per batch (fixed, so that the tail noise does not depend on anything but the seed).
 CHUNK_CELLS = 16
 # Bands whose decay sets the response length: 250 Hz to 4 kHz.
 _LENGTH_BANDS = slice(1, 6)
@@ -145,8 +145,8 @@ def build_responses(scene: Scene, grid: Grid, settings: AcousticSettings,
         cells = np.arange(start, min(start + CHUNK_CELLS, n_c))
         sel = np.isin(paths.owner // n_s, cells)
         chunk = PathSet(paths.vectors[sel], paths.gains[sel], paths.owner[sel] - start * n_s, len(cells) * n_s)
-        rendered = early_fast(chunk, headings, fs, c, settings.head_radius, early_len, RESPONSE_LEAD)
-        early[cells] = rendered.reshape(len(cells), n_s, settings.n_headings, 2, early_len).transpose(0, 2, 1, 3, 4)
+        early_parts = early_fast(chunk, headings, fs, c, settings.head_radius, early_len, RESPONSE_LEAD)
+        early[cells] = early_parts.reshape(len(cells), n_s, settings.n_headings, 2, early_len).transpose(0, 2, 1, 3, 4)
         pair_hist = hist[owner[cells]].reshape(len(cells) * n_s, *hist.shape[2:])
         shift = ((direct[cells] - probe_dist[owner[cells]]) / c * fs).reshape(-1) + RESPONSE_LEAD
         tails = binaural_tails(pair_hist, hbss, length, shift, fs, np.random.default_rng(seeds[k]),

@@ -126,7 +126,7 @@ def early_fast(paths: PathSet, headings: np.ndarray, fs: int, c: float, radius: 
                lead: int, groups: int = 3) -> np.ndarray:
     """Binaural early responses of every pair and heading (the fast way).
 
-    Pairs are sorted by their latest arrival and rendered in ``groups`` batches, each with an FFT only as
+    Pairs are sorted by their latest arrival and synthesised in ``groups`` batches, each with an FFT only as
     long as its own latest path needs.
 
     Returns

@@ -1,4 +1,4 @@
-"""The listening environment: episodes, observations, reward, privileged access, rendering."""
+"""The listening environment: episodes, observations, reward, privileged access, frames for env.render()."""
 
 from hearnav.env.actions import ACTION_NAMES, Action, next_pose
 from hearnav.env.config import EnvConfig, make_config
