@@ -53,12 +53,17 @@ def test_filled_weights_are_the_delay_and_sum_weights_of_each_bearing(world):
         np.testing.assert_allclose(np.sum(das[idx] * d.T, axis=0), 1.0, atol=1e-6)  # w^H d = 1
 
 
-def test_vectorised_weights_equal_the_contexts_own(world):
+def test_vectorised_weights_are_delay_and_sum_of_the_steering_vector(world):
+    # Delay-and-sum weights w = d / (d^H d) of the head model's steering vector d, conjugated, pass the look
+    # direction undistorted: w^H d = 1 (Van Trees, Optimum Array Processing, 2002, ch. 2).
     az = np.random.default_rng(0).uniform(-np.pi, np.pi, (3, 4))
-    table = das_conjugates(az, stft_freqs(512, FS))
+    freqs = stft_freqs(512, FS)
+    table = das_conjugates(az, freqs)
     assert table.shape == (3, 4, 2, 257) and table.dtype == np.complex64
     for idx in np.ndindex(az.shape):
-        np.testing.assert_array_equal(table[idx], SeparationContext(FS, float(az[idx])).das_conjugate())
+        d = steering_vector(float(az[idx]), freqs)  # (F, 2)
+        np.testing.assert_allclose(table[idx], np.conj(das_weights(d)).T, rtol=1e-5, atol=1e-6)
+        np.testing.assert_allclose(np.sum(table[idx] * d.T, axis=0), 1.0, atol=1e-5)
 
 
 def test_the_env_hands_the_separator_the_weights_of_its_bearing(world):
