@@ -7,6 +7,7 @@ so that the command line can print it on one line without a traceback.
 from __future__ import annotations
 
 import difflib
+import reprlib
 from collections.abc import Iterable
 
 
@@ -49,6 +50,19 @@ def did_you_mean(name: str, valid: Iterable[str]) -> str:
     if close:
         return f"did you mean {', '.join(repr(c) for c in close)}?"
     return f"valid names: {', '.join(valid)}"
+
+
+_REPR = reprlib.Repr()
+for _name, _value in dict(maxlevel=3, maxtuple=4, maxlist=4, maxarray=4, maxdict=4, maxset=4, maxfrozenset=4,
+                          maxdeque=4, maxstring=48, maxlong=40, maxother=48).items():
+    setattr(_REPR, _name, _value)
+
+
+def short_repr(value: object, width: int = 60) -> str:
+    """A repr of at most ``width`` characters that never renders more than a few items of any container, so
+    a huge or deeply shared value costs no more than a small one."""
+    text = _REPR.repr(value)
+    return text if len(text) <= width else text[: width - 3] + "..."
 
 
 def unknown_name(kind: str, name: str, valid: Iterable[str]) -> str:

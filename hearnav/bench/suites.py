@@ -17,7 +17,8 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError
 
 from hearnav.env.config import EnvConfig, make_config
 from hearnav import bundled
-from hearnav.errors import ConfigError, did_you_mean
+from hearnav.errors import ConfigError, did_you_mean, short_repr
+from hearnav.yamlfile import YamlRefused, load_yaml_text
 from hearnav.plugins import identity
 
 SUITE_DIR = bundled.folder("configs") / "suites"
@@ -80,13 +81,15 @@ def load_suite(name_or_path: str) -> Suite:
         raise ConfigError(f"suite {name_or_path!r} not found (expected a YAML file or one of "
                           f"{', '.join(suite_names())}); {did_you_mean(str(name_or_path), suite_names())}")
     try:
-        data = yaml.safe_load(path.read_text(encoding="utf-8"))
+        data = load_yaml_text(path.read_text(encoding="utf-8"))
         suite = Suite.model_validate(data)
+    except YamlRefused as exc:
+        raise ConfigError(f"{path}: refused: {exc}") from None
     except yaml.YAMLError as exc:
         raise ConfigError(f"{path}: not valid YAML ({str(exc).splitlines()[0]})") from None
     except ValidationError as exc:
         first = exc.errors(include_url=False)[0]
         raise ConfigError(f"{path}: {'.'.join(map(str, first['loc']))}: {first['msg']} "
-                          f"(got {str(first.get('input'))[:60]})") from None
+                          f"(got {short_repr(first.get('input'))})") from None
     suite.env_config()  # validate the options now
     return suite

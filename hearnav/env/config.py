@@ -11,7 +11,8 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_valida
 from hearnav.acoustics.settings import AcousticSettings
 from hearnav.sounds.builtin import BUILTIN_NAMES
 from hearnav import bundled
-from hearnav.errors import ConfigError, did_you_mean
+from hearnav.errors import ConfigError, did_you_mean, short_repr
+from hearnav.yamlfile import YamlRefused, load_yaml_text
 
 #: Folder of the bundled environment configurations.
 CONFIG_DIR = bundled.folder("configs") / "env"
@@ -76,7 +77,7 @@ def _problem(err: dict) -> str:
         name = str(err["loc"][-1])
         return f"unknown option {loc!r} (expected one of {', '.join(owner.model_fields)}); " \
                f"{did_you_mean(name, owner.model_fields)}"
-    got = repr(err.get("input"))[:60]
+    got = short_repr(err.get("input"))
     msg = err["msg"].replace("Value error, ", "").replace("Input should be ", "expected ")
     return f"option {loc!r}: {msg} (got {got})"
 
@@ -108,7 +109,9 @@ def load_yaml(config: str | Path) -> dict:
         raise ConfigError(f"environment config {str(config)!r} not found (expected a YAML file or one of "
                           f"{', '.join(names)}); {did_you_mean(str(config), names)}")
     try:
-        data = yaml.safe_load(path.read_text(encoding="utf-8"))
+        data = load_yaml_text(path.read_text(encoding="utf-8"))
+    except YamlRefused as exc:
+        raise ConfigError(f"{path}: refused: {exc}") from None
     except yaml.YAMLError as exc:
         raise ConfigError(f"{path}: not valid YAML (expected a mapping of options, got {str(exc).splitlines()[0]})") from None
     if data is None:

@@ -6,7 +6,7 @@ from typing import Any
 
 from pydantic import BaseModel, ValidationError
 
-from hearnav.errors import did_you_mean
+from hearnav.errors import did_you_mean, short_repr
 from hearnav.scene import format as fmt
 
 # The model that owns the fields found under a parent field of this name (or union tag).
@@ -42,8 +42,7 @@ def _owner(loc: tuple[Any, ...]) -> type[BaseModel] | None:
 
 
 def _short(value: Any) -> str:
-    text = repr(value)
-    return text if len(text) <= 60 else text[:57] + "..."
+    return short_repr(value)
 
 
 def describe(error: dict[str, Any]) -> str:

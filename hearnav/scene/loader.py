@@ -12,6 +12,7 @@ from hearnav.scene.checks import check_scene
 from hearnav.scene.errors_report import problems_from
 from hearnav.scene.format import SceneSpec
 from hearnav.scene.model import Scene
+from hearnav.yamlfile import YamlRefused, load_yaml_text
 
 
 def parse_text(text: str, source: str) -> Scene:
@@ -19,7 +20,9 @@ def parse_text(text: str, source: str) -> Scene:
     if not text.strip():
         raise SceneError(f"{source}: (top level): file is empty (expected a YAML mapping of scene fields, got nothing)")
     try:
-        data = yaml.safe_load(text)
+        data = load_yaml_text(text)
+    except YamlRefused as exc:
+        raise SceneError(f"{source}: (top level): refused: {exc}") from None
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None)
         where = f"line {mark.line + 1}, column {mark.column + 1}" if mark else "unknown place"
