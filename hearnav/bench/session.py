@@ -58,7 +58,20 @@ def _check_arguments(policies: Sequence[str], workers: int, save_audio: int) -> 
         raise ConfigError(f"workers (--workers) must be at least 1, got {workers}: use 1 for one process or more")
     if save_audio < 0:
         raise ConfigError(f"save_audio (--save-audio) must be 0 or more, got {save_audio}: use 0 to write no audio")
-    return list(policies)
+    canonical = [canonical_reference(ref) for ref in policies]
+    for k, ref in enumerate(canonical):
+        if ref in canonical[:k]:
+            raise ConfigError(f"policy {policies[k]!r} is given twice (expected each policy once, got it as "
+                              f"{policies[canonical.index(ref)]!r} too); drop the repeat")
+    return canonical
+
+
+def canonical_reference(reference: str) -> str:
+    """One spelling per policy: a file reference's path is normalised (``./p.py:X`` is ``p.py:X``)."""
+    where, sep, attr = str(reference).rpartition(":")
+    if sep and where.endswith(".py"):
+        return f"{os.path.normpath(where)}:{attr}"
+    return str(reference)
 
 
 def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os.PathLike, workers: int = 1,

@@ -221,6 +221,9 @@ class HearNavEnv(gym.Env):
     def step(self, action):
         if self._session is None:
             raise ConfigError("call reset() before step() (expected a started episode, got none)")
+        if self.steps >= self.config.budget:
+            raise ConfigError(f"the episode was truncated after its budget of {self.config.budget} steps (expected "
+                              f"a step within the budget); call reset() to start the next episode")
         if isinstance(action, (bool, np.bool_)) or not isinstance(action, (int, np.integer)) or \
                 not 0 <= int(action) < 4:
             if isinstance(action, np.ndarray) and action.shape in ((), (1,)) and np.issubdtype(action.dtype, np.integer):

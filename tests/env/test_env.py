@@ -90,7 +90,7 @@ def test_budget_truncates(make_env):
 
 
 def test_moves_turns_and_collisions(make_env):
-    env = make_env()
+    env = make_env(budget=30)
     env.reset(seed=1)
     grid = env.world.grid
     cell, heading = env.cell, env.heading
@@ -252,3 +252,16 @@ def test_a_separator_returning_non_finite_samples_is_an_error(make_env, bad):
             env.reset(seed=0)
     finally:
         unregister_separator("broken-test")
+
+
+def test_stepping_after_truncation_is_a_clear_error(make_env):
+    # gymnasium's OrderEnforcing/PassiveEnvChecker practice: an episode that ended must be reset, not stepped.
+    env = make_env(budget=2)
+    env.reset(seed=0)
+    env.step(3)
+    assert env.step(3)[3] is True
+    with pytest.raises(ConfigError, match=r"^the episode was truncated after its budget of 2 steps \(expected a "
+                                          r"step within the budget\); call reset\(\) to start the next episode$"):
+        env.step(3)
+    env.reset(seed=1)
+    env.step(3)  # a reset starts the next episode
