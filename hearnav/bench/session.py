@@ -66,6 +66,11 @@ def _check_arguments(policies: Sequence[str], workers: int, save_audio: int) -> 
     return canonical
 
 
+def worker_count(requested: int, episodes: int) -> int:
+    """Worker processes a run uses: the request, at most one per episode and one per CPU."""
+    return max(1, min(int(requested), int(episodes), os.cpu_count() or 1))
+
+
 def canonical_reference(reference: str) -> str:
     """One spelling per policy: a file reference's path is normalised (``./p.py:X`` is ``p.py:X``)."""
     where, sep, attr = str(reference).rpartition(":")
@@ -117,6 +122,7 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
     results.repair(rows_path)
     done = results.done_keys(results.read_rows(rows_path))
     seeds = suite.episode_seeds()
+    workers = worker_count(workers, len(seeds))
     oracles = compute_oracles(suite, cache_dir() / "oracle", workers,
                               progress=_counter(progress, ORACLE_STAGE, len(seeds)))
     audio_dir = str(out / "audio") if save_audio else None

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import sys
 from pathlib import Path
 
@@ -45,11 +46,18 @@ class _Bars:
 
 def run(args) -> int:
     from hearnav.bench import run as run_bench
+    from hearnav.bench.session import worker_count
+    from hearnav.bench.suites import load_suite
     from hearnav.report import format_table
 
+    suite = load_suite(str(args.suite))
+    workers = worker_count(args.workers, suite.episodes) if args.workers >= 1 else args.workers
+    if workers != args.workers:
+        print(f"hearnav: note: --workers {args.workers} capped at {workers} (at most one per episode, "
+              f"{suite.episodes}, and one per CPU, {os.cpu_count()})", file=sys.stderr)
     bars = _Bars()
     try:
-        summary = run_bench(args.suite, args.policy, args.out, workers=args.workers, reference=args.reference,
+        summary = run_bench(suite, args.policy, args.out, workers=workers, reference=args.reference,
                             save_audio=args.save_audio, progress=bars)
     finally:
         bars.close()
