@@ -1,7 +1,7 @@
 """The benchmark: the policy protocol and registry, and :func:`run`, which runs policies on a suite."""
 
 from hearnav.bench.policy import Policy, SB3Policy, as_policy, is_privileged
-from hearnav.bench.registry import policy_names, register_policy, load_policy
+from hearnav.bench.registry import load_policy, policy_names, register_policy
 from hearnav.bench.results import EpisodeResult
 from hearnav.bench.session import code_version, run
 

@@ -14,8 +14,8 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
-from hearnav.bench.policy import as_policy
 from hearnav import bundled
+from hearnav.bench.policy import as_policy
 from hearnav.errors import PolicyError
 from hearnav.plugins import Registry
 

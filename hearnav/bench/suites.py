@@ -15,11 +15,11 @@ import numpy as np
 import yaml
 from pydantic import BaseModel, ConfigDict, Field, ValidationError
 
-from hearnav.env.config import EnvConfig, make_config
 from hearnav import bundled
+from hearnav.env.config import EnvConfig, make_config
 from hearnav.errors import ConfigError, did_you_mean, short_repr
-from hearnav.yamlfile import YamlRefused, load_yaml_text
 from hearnav.plugins import identity
+from hearnav.yamlfile import YamlRefused, load_yaml_text
 
 SUITE_DIR = bundled.folder("configs") / "suites"
 

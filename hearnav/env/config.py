@@ -8,10 +8,10 @@ from typing import Literal
 import yaml
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
-from hearnav.acoustics.settings import AcousticSettings
-from hearnav.sounds.builtin import BUILTIN_NAMES
 from hearnav import bundled
+from hearnav.acoustics.settings import AcousticSettings
 from hearnav.errors import ConfigError, did_you_mean, short_repr
+from hearnav.sounds.builtin import BUILTIN_NAMES
 from hearnav.yamlfile import YamlRefused, load_yaml_text
 
 #: Folder of the bundled environment configurations.

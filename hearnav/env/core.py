@@ -206,7 +206,7 @@ class HearNavEnv(gym.Env):
         self._path = [(self.cell, self.heading)]
         self._spot_ids = [p.spot for p in plan.sources]
         self._poses = world.poses  # the scene's tables, memory-mapped from the store
-        self._views = get_maps(plan.scene, self.config.acoustics, self.config.patch_size, self._fov)
+        self._maps = get_maps(plan.scene, self.config.acoustics, self.config.patch_size, self._fov)
         self._source_info = [p.info(world.scene) for p in plan.sources]
         self.si_sdr_db = None
         for _ in range(MAX_LEAD_IN + 1):  # a target that starts in a pause: listen on until it sounds
@@ -323,7 +323,7 @@ class HearNavEnv(gym.Env):
 
     def _map(self) -> np.ndarray:
         """The egocentric map at the current pose."""
-        return self._views.patch(self.cell, self.heading, self._spot_ids)
+        return self._maps.patch(self.cell, self.heading, self._spot_ids)
 
     def _info(self) -> dict[str, Any]:
         grid = self.world.grid

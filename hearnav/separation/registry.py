@@ -107,11 +107,7 @@ def register_separator(name: str, fn: SeparatorFn | None = None, *, privileged: 
             register_separator(name, f, privileged=privileged)
             return f
         return decorator
-    SEPARATORS.check_name(name)
-    if name in SEPARATORS:
-        raise SeparatorError(f"separator {name!r} is already registered (expected a new name); choose another "
-                             f"name or unregister the old one first")
-    sep = _adopt(name, fn)
+    sep = _adopt(name, fn)  # a new object: the registry refuses it under a taken name
     if privileged is not None:
         sep = dataclasses.replace(sep, privileged=bool(privileged))
     return SEPARATORS.add(name, sep)

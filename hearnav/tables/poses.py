@@ -4,9 +4,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from hearnav.scene.grid import Grid
-from hearnav.physics.geometry import bearing as bearing_of, heading_angles
+from hearnav.physics.geometry import bearing as bearing_of
+from hearnav.physics.geometry import heading_angles
 from hearnav.physics.steering import das_conjugates
+from hearnav.scene.grid import Grid
 from hearnav.separation.stft import stft_freqs
 
 

@@ -4,8 +4,8 @@ import numpy as np
 import pytest
 import yaml
 
-from hearnav.env import HearNavEnv
 from benchmarks.occlusion import check_scene
+from hearnav.env import HearNavEnv
 from hearnav.env.worlds import get_world
 from hearnav.scene.library import clear_cache
 from tests.conftest import shoebox_dict
