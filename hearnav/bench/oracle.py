@@ -50,10 +50,11 @@ def oracle_bound(env: HearNavEnv, episode_seed: int) -> float:
 
 
 class OracleCache:
-    """Oracle bounds of a suite's episodes, kept in one JSON file keyed by the suite's digest."""
+    """Oracle bounds of a suite's episodes, kept in one JSON file named by the suite's result key
+    (:meth:`Suite.result_key`), so that a changed scene, setting, code or plug-in never reuses a bound."""
 
-    def __init__(self, folder: Path, suite_digest: str):
-        self.path = Path(folder) / f"oracle-{suite_digest}.json"
+    def __init__(self, folder: Path, key: str):
+        self.path = Path(folder) / f"oracle-{key}.json"
         self.values: dict[str, float] = json.loads(self.path.read_text()) if self.path.exists() else {}
 
     def get(self, episode_seed: int) -> float | None:

@@ -6,9 +6,10 @@ A run folder ``DIR`` holds
   with a single ``write`` followed by ``flush`` and ``os.fsync``, so a killed process (even ``SIGKILL``)
   leaves at most one torn line, and only at the very end. :func:`read_rows` ignores such a line and
   :func:`repair` cuts it off so that later appends start on a fresh line.
-- ``DIR/run.json``: the run manifest (suite, suite hash, code version, ...), replaced atomically
+- ``DIR/run.json``: the run manifest (suite, result key and its parts, ...), replaced atomically
   (temporary file, ``fsync``, ``os.replace``) by :func:`write_manifest`. :func:`check_manifest` refuses to
-  add results to a folder that holds results of another suite or code version.
+  add results to a folder whose manifest, or any of whose rows, carries another result key
+  (:mod:`hearnav.bench.keys`): another suite, scene version, acoustic setting, code version or plug-in.
 
 A row is an :class:`EpisodeResult`, written as a plain dict (:meth:`EpisodeResult.to_dict`). Floats that JSON cannot hold (NaN, +-inf) are stored as ``null``; NumPy scalars and
 arrays are stored as Python numbers and lists. Keys containing ``"time"`` are wall-clock measurements by
@@ -20,6 +21,7 @@ from __future__ import annotations
 import json
 import math
 import os
+import re
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field, fields
 from pathlib import Path
@@ -28,13 +30,16 @@ from typing import Any
 
 import numpy as np
 
-from hearnav.errors import HearnavError
+from hearnav.bench.keys import changed_parts
+from hearnav.errors import HearnavError, short_repr
 
 EPISODES_FILE = "episodes.jsonl"
 SUMMARY_FILE = "summary.json"
 MANIFEST_FILE = "run.json"
 DONE_STATUSES = ("ok", "failed")
-MANIFEST_KEYS = ("suite_hash", "code_version")
+MANIFEST_KEYS = ("run_key",)
+KEY_FIELD = "run_key"
+_KEY_TEXT = re.compile(r"[0-9a-f]{1,64}")  # a key as written; anything else is shown through short_repr
 
 
 class ResultsError(HearnavError):
@@ -47,7 +52,8 @@ class EpisodeResult:
 
     Scores are SI-SDR in dB. ``normalised_gain`` is gain / (oracle bound - start score), ``None`` when the
     bound is unknown or not above the start. ``extra`` keeps fields this version does not know (rows written
-    by other versions), so they survive a round trip.
+    by other versions), so they survive a round trip. ``run_key`` is the result key of the run that wrote
+    the row (:mod:`hearnav.bench.keys`).
     """
 
     policy: str
@@ -71,6 +77,7 @@ class EpisodeResult:
     final_pose: dict | None = None
     start_xy: list | None = None
     wall_time_s: float | None = None
+    run_key: str | None = None
     extra: dict = field(default_factory=dict)
 
     def to_dict(self) -> dict:
@@ -428,18 +435,49 @@ def read_manifest(directory: str | os.PathLike) -> dict | None:
     return value
 
 
-def check_manifest(directory: str | os.PathLike, manifest: Mapping[str, Any]) -> dict:
-    """Make sure ``DIR`` holds (or will hold) results of this suite and code version only.
+def _refusal(where: str, found: object, expected: str, detail: str = "") -> ResultsError:
+    """The one-line refusal to add results to a folder that holds results under another key."""
+    shown = found if isinstance(found, str) and _KEY_TEXT.fullmatch(found) else short_repr(found)
+    return ResultsError(f"{where} holds results of another suite or scene version (key {shown}, "
+                        f"expected {expected}{detail}): use a new --out folder")
 
-    If ``DIR/run.json`` is absent it is written; if it records the same ``suite_hash`` and
-    ``code_version`` the run may add to it (the stored manifest is kept); otherwise the run is refused.
+
+def check_rows(path: str | os.PathLike, rows: Iterable[Mapping[str, Any]], key: str) -> None:
+    """Make sure every row carries the result key ``key`` (rows of older versions carry none).
+
+    Parameters
+    ----------
+    path : str or PathLike
+        The ``episodes.jsonl`` file the rows come from, for the message.
+    rows : Iterable[Mapping[str, Any]]
+        Rows as read by :func:`read_rows` (row k is line k + 1).
+    key : str
+        This run's result key.
+
+    Raises
+    ------
+    ResultsError
+        Naming the first row whose ``run_key`` differs, and its key.
+    """
+    for number, row in enumerate(rows, start=1):
+        if row.get(KEY_FIELD) != key:
+            raise _refusal(f"{path} line {number}", row.get(KEY_FIELD), key)
+
+
+def check_manifest(directory: str | os.PathLike, manifest: Mapping[str, Any]) -> dict:
+    """Make sure ``DIR`` holds (or will hold) results under this run's result key only.
+
+    The stored ``DIR/run.json``, if any, must record the same ``run_key``, and so must every row of
+    ``DIR/episodes.jsonl`` (a deleted manifest does not let another run's rows in). Only then is a missing
+    manifest written; the stored one is kept otherwise. Nothing in ``DIR`` changes when the run is refused.
 
     Parameters
     ----------
     directory : str or PathLike
         The run folder (the ``--out`` of the command line).
     manifest : Mapping[str, Any]
-        This run's manifest; needs ``"suite_hash"`` and ``"code_version"``, and should name the ``"suite"``.
+        This run's manifest; needs ``"run_key"``, and should hold its ``"key_parts"`` (the message then names
+        the parts that changed) and name the ``"suite"``.
 
     Returns
     -------
@@ -449,20 +487,22 @@ def check_manifest(directory: str | os.PathLike, manifest: Mapping[str, Any]) ->
     Raises
     ------
     ResultsError
-        If the stored manifest records another suite hash or code version, or ``manifest`` lacks a key.
+        If the stored manifest or a row records another key, or ``manifest`` lacks a key.
     """
     missing = [key for key in MANIFEST_KEYS if key not in manifest]
     if missing:
         raise ResultsError(f"expected a run manifest with keys {list(MANIFEST_KEYS)}, got one without {missing}: "
-                           f"build it with the suite hash and code version")
+                           f"build it with the suite's result key (Suite.result_key())")
+    key = manifest["run_key"]
     stored = read_manifest(directory)
+    if stored is not None and stored.get("run_key") != key:
+        changed = changed_parts(stored.get("key_parts"), manifest.get("key_parts", {}))
+        listed = ", ".join(changed)  # names from a stored file: bounded like short_repr
+        detail = f"; changed: {listed if len(listed) <= 120 else listed[:117] + '...'}" if changed else ""
+        raise _refusal(str(directory), stored.get("run_key"), key, detail)
+    rows_path = Path(directory) / EPISODES_FILE
+    check_rows(rows_path, read_rows(rows_path), key)
     if stored is None:
         write_manifest(directory, manifest)
         return dict(manifest)
-    if any(stored.get(key) != manifest[key] for key in MANIFEST_KEYS):
-        raise ResultsError(
-            f"{directory} holds results of suite {stored.get('suite')} (hash {stored.get('suite_hash')}) / "
-            f"code version {stored.get('code_version')}; refusing to mix them with suite {manifest.get('suite')} "
-            f"(hash {manifest['suite_hash']}) / version {manifest['code_version']}: "
-            f"choose another --out or remove {directory}")
     return stored

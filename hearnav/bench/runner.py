@@ -108,7 +108,7 @@ def _oracle_work(env: HearNavEnv, seed: int) -> tuple[int, float]:
 
 def compute_oracles(suite: Suite, folder: Path, workers: int, progress=None) -> dict[int, float]:
     """Oracle bounds of every episode of a suite, computed once and cached in ``folder``."""
-    cache = OracleCache(folder, suite.digest())
+    cache = OracleCache(folder, suite.result_key())
     options = suite.env_config().model_dump()
     missing = [s for s in suite.episode_seeds() if cache.get(s) is None]
     for seed, value in _map(_oracle_work, missing, options, workers):

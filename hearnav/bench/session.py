@@ -1,8 +1,9 @@
 """Run policies on a suite as a library call: rows in DIR/episodes.jsonl, the summary in DIR/summary.json.
 
-:func:`run` checks the run manifest, repairs a torn last row, skips the episodes already done (resume),
-computes the oracle bounds, runs the remaining episodes and writes the summary. It prints nothing; pass
-``progress`` to follow it.
+:func:`run` checks that the run manifest and rows carry this run's result key
+(:mod:`hearnav.bench.keys`), repairs a torn last row, skips the episodes already done (resume), computes the
+oracle bounds, runs the remaining episodes and writes the summary. It prints nothing; pass ``progress`` to
+follow it.
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from hearnav.bench import results
+from hearnav.bench.keys import code_version
 from hearnav.errors import ConfigError
 
 if TYPE_CHECKING:  # imported when run, so that importing hearnav.bench stays light
@@ -23,14 +25,6 @@ if TYPE_CHECKING:  # imported when run, so that importing hearnav.bench stays li
 # progress(stage, done, total): called with done == 0 when a stage starts, then after each episode of it
 Progress = Callable[[str, int, int], None]
 ORACLE_STAGE = "oracle bounds"
-
-
-def code_version() -> str:
-    """The hearnav version and response-model version that produced results."""
-    from hearnav import __version__
-    from hearnav.acoustics.settings import MODEL_VERSION
-
-    return f"{__version__}+model{MODEL_VERSION}"
 
 
 def _counter(progress: Progress | None, stage: str, total: int) -> Callable[[], None]:
@@ -90,7 +84,8 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
     policies : sequence of str
         Policy references: registered names, ``module:attr`` or ``path/to/file.py:attr``.
     out : str or PathLike
-        The results folder; rerunning into it resumes. It must not hold another suite's or version's results.
+        The results folder; rerunning into it resumes. It must not hold results under another result key
+        (another suite, scene version, acoustic setting, code version or plug-in).
     workers : int
         Worker processes.
     reference : str
@@ -106,18 +101,24 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
         What ``out/summary.json`` holds (:meth:`Summary.to_dict`), over every row in ``out``.
     """
     from hearnav.acoustics import cache_dir
+    from hearnav.bench.keys import result_key
     from hearnav.bench.registry import load_policy
     from hearnav.bench.runner import Task, compute_oracles, run_tasks
     from hearnav.bench.stats import summarise
     from hearnav.bench.suites import Suite, load_suite
+    from hearnav.scene.library import clear_cache
 
     policies = _check_arguments(policies, workers, save_audio)
     suite = suite if isinstance(suite, Suite) else load_suite(str(suite))
     for ref in policies:  # unknown names fail here, in one line, before any work
         load_policy(ref)
+    clear_cache()  # read the scene files as they are now: the key and the episodes use the same scenes
+    parts = suite.key_parts()
+    key = result_key(parts)
     out = Path(out)
     out.mkdir(parents=True, exist_ok=True)
-    results.check_manifest(out, {"suite": suite.name, "suite_hash": suite.digest(), "code_version": code_version()})
+    results.check_manifest(out, {"suite": suite.name, "suite_hash": suite.digest(), "code_version": code_version(),
+                                 "run_key": key, "key_parts": parts})
     rows_path = out / results.EPISODES_FILE
     results.repair(rows_path)
     done = results.done_keys(results.read_rows(rows_path))
@@ -131,10 +132,10 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
     step = _counter(progress, suite.name, len(tasks))
     with results.ResultWriter(rows_path) as writer:
         for result in run_tasks(suite, tasks, workers):
-            writer.append(result)
+            writer.append(dataclasses.replace(result, run_key=key))
             step()
     rows = results.read_rows(rows_path)
     summary = dataclasses.replace(summarise(rows, reference=reference), suite=suite.name,
-                                  suite_hash=suite.digest(), code_version=code_version())
+                                  suite_hash=suite.digest(), code_version=code_version(), run_key=key)
     results.write_json(out / results.SUMMARY_FILE, summary.to_dict())
     return summary

@@ -160,7 +160,8 @@ class Summary:
     "privileged", metric: mean_ci(...), ...}`` (``episodes`` counts every episode, ``ok`` and ``failures``
     those with that status). ``comparisons`` maps every other policy to ``paired_comparison(policy gain_db,
     reference gain_db)``; it is empty, and ``reference_missing`` true, when no row is from ``reference``.
-    ``suite``, ``suite_hash`` and ``code_version`` name what produced the rows (``None`` when not known).
+    ``suite``, ``suite_hash``, ``code_version`` and ``run_key`` (the result key, :mod:`hearnav.bench.keys`)
+    name what produced the rows (``None`` when not known).
     """
 
     policies: dict[str, dict] = field(default_factory=dict)
@@ -170,6 +171,7 @@ class Summary:
     suite: str | None = None
     suite_hash: str | None = None
     code_version: str | None = None
+    run_key: str | None = None
 
     @property
     def failures(self) -> int:
@@ -179,7 +181,7 @@ class Summary:
     def to_dict(self) -> dict:
         """The summary as ``DIR/summary.json`` holds it."""
         return {"suite": self.suite, "suite_hash": self.suite_hash, "code_version": self.code_version,
-                "reference": self.reference, "reference_missing": self.reference_missing,
+                "run_key": self.run_key, "reference": self.reference, "reference_missing": self.reference_missing,
                 "policies": self.policies, "comparisons": self.comparisons}
 
     @classmethod
@@ -191,7 +193,8 @@ class Summary:
                                f"without {missing}: read a summary.json written by hearnav bench")
         return cls(policies=dict(data["policies"]), comparisons=dict(data["comparisons"]),
                    reference=data["reference"], reference_missing=bool(data.get("reference_missing", False)),
-                   suite=data.get("suite"), suite_hash=data.get("suite_hash"), code_version=data.get("code_version"))
+                   suite=data.get("suite"), suite_hash=data.get("suite_hash"), code_version=data.get("code_version"),
+                   run_key=data.get("run_key"))
 
 
 def _by_policy(rows: Iterable[Mapping[str, Any] | EpisodeResult]) -> dict[str, dict[int, Mapping[str, Any]]]:

@@ -44,22 +44,43 @@ class Suite(BaseModel):
         return [int(child.generate_state(1, np.uint64)[0] % (2**63)) for child in
                 np.random.SeedSequence(self.seed).spawn(self.episodes)]
 
-    def plugins(self) -> dict[str, str]:
-        """Identity of every registered plug-in the suite's episodes and scores depend on: its sound categories
-        and its separator (:func:`hearnav.plugins.identity`)."""
+    def plugin_objects(self) -> dict[str, object]:
+        """Every registered plug-in the suite's episodes and scores depend on, as code: the generators of its
+        sound categories and its separator's function."""
         from hearnav.separation import get_separator
-        from hearnav.sounds.registry import category_identity
+        from hearnav.sounds.registry import get_category
 
         cfg = self.env_config()
-        found = {f"sound:{name}": category_identity(name) for name in cfg.sound_categories}
-        found[f"separator:{cfg.separator}"] = identity(get_separator(cfg.separator).fn)
+        found: dict[str, object] = {f"sound:{name}": get_category(name).generator for name in cfg.sound_categories}
+        found[f"separator:{cfg.separator}"] = get_separator(cfg.separator).fn
         return found
+
+    def plugins(self) -> dict[str, str]:
+        """Identity of every plug-in of :meth:`plugin_objects` (:func:`hearnav.plugins.identity`; a sound
+        category's also names its voice counts)."""
+        from hearnav.sounds.registry import category_identity
+
+        return {name: category_identity(name.partition(":")[2]) if name.startswith("sound:") else identity(obj)
+                for name, obj in self.plugin_objects().items()}
 
     def digest(self) -> str:
         """Hash of everything that defines the episodes: the suite, its environment options and its plug-ins."""
         payload = json.dumps({"suite": self.model_dump(), "env": self.env_config().model_dump(mode="json"),
                               "plugins": self.plugins()}, sort_keys=True)
         return hashlib.sha256(payload.encode()).hexdigest()[:16]
+
+    def key_parts(self) -> dict:
+        """Everything the suite's results depend on, beyond :meth:`digest`: scene contents, acoustic settings,
+        code and plug-in code (:func:`hearnav.bench.keys.key_parts`); loads the scenes."""
+        from hearnav.bench.keys import key_parts
+
+        return key_parts(self)
+
+    def result_key(self) -> str:
+        """The digest of :meth:`key_parts`: run folders, rows and oracle bounds are keyed by it."""
+        from hearnav.bench.keys import result_key
+
+        return result_key(self.key_parts())
 
 
 def policy_seed(episode_seed: int) -> int:

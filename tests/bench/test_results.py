@@ -147,7 +147,7 @@ def test_done_keys_takes_ok_and_failed_only():
         done_keys([{"status": "ok"}])
 
 
-MANIFEST = {"suite": "small", "suite_hash": "abc123", "code_version": "0.1.0+g1234"}
+MANIFEST = {"suite": "small", "run_key": "abc123", "key_parts": {"suite": "s1", "scenes": {"room": "r1"}}}
 
 
 def test_manifest_written_when_absent_and_accepted_when_same(tmp_path):
@@ -159,28 +159,39 @@ def test_manifest_written_when_absent_and_accepted_when_same(tmp_path):
     assert [p.name for p in out.iterdir()] == ["run.json"]  # no temporary file left behind
 
 
-def test_manifest_guard_refuses_other_suite_or_version(tmp_path):
+def test_manifest_guard_refuses_another_key_and_names_the_changed_parts(tmp_path):
     out = tmp_path / "run"
     write_manifest(out, MANIFEST)
     with pytest.raises(ResultsError) as info:
-        check_manifest(out, {"suite": "large", "suite_hash": "fff999", "code_version": "0.2.0"})
-    assert str(info.value) == (
-        f"{out} holds results of suite small (hash abc123) / code version 0.1.0+g1234; refusing to mix them "
-        f"with suite large (hash fff999) / version 0.2.0: choose another --out or remove {out}")
-    with pytest.raises(ResultsError, match="code version 0.1.0\\+g1234; refusing to mix"):
-        check_manifest(out, {**MANIFEST, "code_version": "0.1.1"})
+        check_manifest(out, {"suite": "small", "run_key": "fff999",
+                             "key_parts": {"suite": "s1", "scenes": {"room": "r2", "hall": "h1"}}})
+    assert str(info.value) == (f"{out} holds results of another suite or scene version (key abc123, expected "
+                               f"fff999; changed: scene hall, scene room): use a new --out folder")
+    with pytest.raises(ResultsError, match="key abc123, expected abc124\\): use a new --out folder$"):
+        check_manifest(out, {"run_key": "abc124"})  # no parts to compare: no list of changes
     assert read_manifest(out) == MANIFEST  # untouched
 
 
-def test_manifest_needs_hash_and_version(tmp_path):
-    with pytest.raises(ResultsError, match=r"got one without \['code_version'\]"):
-        check_manifest(tmp_path, {"suite": "s", "suite_hash": "h"})
+def test_manifest_guard_refuses_rows_of_another_key_even_without_a_manifest(tmp_path):
+    out = tmp_path
+    append_row(out / "episodes.jsonl", {**row(0), "run_key": "abc123"})
+    append_row(out / "episodes.jsonl", row(1))  # a row of an older version: no key
+    with pytest.raises(ResultsError) as info:
+        check_manifest(out, MANIFEST)
+    assert str(info.value) == (f"{out / 'episodes.jsonl'} line 2 holds results of another suite or scene version "
+                               f"(key None, expected abc123): use a new --out folder")
+    assert read_manifest(out) is None  # nothing written when refused
+
+
+def test_manifest_needs_the_result_key(tmp_path):
+    with pytest.raises(ResultsError, match=r"got one without \['run_key'\]"):
+        check_manifest(tmp_path, {"suite": "s", "suite_hash": "h", "code_version": "v"})
 
 
 def test_write_manifest_replaces_atomically(tmp_path):
     write_manifest(tmp_path, MANIFEST)
-    write_manifest(tmp_path, {**MANIFEST, "suite_hash": "new"})
-    assert read_manifest(tmp_path)["suite_hash"] == "new"
+    write_manifest(tmp_path, {**MANIFEST, "run_key": "new"})
+    assert read_manifest(tmp_path)["run_key"] == "new"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["run.json"]
 
 
@@ -207,7 +218,7 @@ WRITTEN_ROW = {"policy": "random-walk", "privileged": False, "episode_index": 2,
                "best_si_sdr_db": -9.5, "gain_db": 2.5, "episode_return": 2.5, "normalised_gain": 0.16,
                "path_length_m": 1.5, "steps": 20, "collisions": 1,
                "final_pose": {"cell": 4, "heading": 1, "x": 1.0, "y": 2.5}, "start_xy": [0.5, 2.0],
-               "wall_time_s": 0.75}
+               "wall_time_s": 0.75, "run_key": "e75931e1cb882ff2"}
 
 
 def test_episode_result_round_trips_through_the_file(tmp_path):

@@ -132,7 +132,7 @@ def test_changed_suite_under_the_same_out_is_refused(suite_file, tmp_path, capsy
     other = dict(SUITE, seed=6)
     suite_file.write_text(yaml.safe_dump(other))
     assert _bench(suite_file, out, "still") == 2
-    assert "refusing to mix" in capsys.readouterr().err
+    assert "holds results of another suite or scene version" in capsys.readouterr().err
 
 
 def test_unknown_policy_is_one_line(suite_file, tmp_path, capsys):

@@ -171,7 +171,7 @@ def test_summarise_without_reference():
 def test_summary_json_form_round_trips():
     s = summarise(ROWS)
     doc = json.loads(json.dumps(s.to_dict()))
-    assert set(doc) == {"suite", "suite_hash", "code_version", "reference", "reference_missing", "policies",
+    assert set(doc) == {"suite", "suite_hash", "code_version", "run_key", "reference", "reference_missing", "policies",
                         "comparisons"}  # the fields of DIR/summary.json, as the README lists them
     assert Summary.from_dict(doc) == s
     with pytest.raises(ResultsError, match=r"got one without \['comparisons'\]"):
