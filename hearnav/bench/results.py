@@ -10,6 +10,8 @@ A run folder ``DIR`` holds
   (temporary file, ``fsync``, ``os.replace``) by :func:`write_manifest`. :func:`check_manifest` refuses to
   add results to a folder whose manifest, or any of whose rows, carries another result key
   (:mod:`hearnav.bench.keys`): another suite, scene version, acoustic setting, code version or plug-in.
+- ``DIR/.lock``: locked (``flock``) by :func:`lock_folder` for the whole of a run, so that a second run
+  on the same folder fails at once instead of writing rows twice.
 
 A row is an :class:`EpisodeResult`, written as a plain dict (:meth:`EpisodeResult.to_dict`). Floats that JSON cannot hold (NaN, +-inf) are stored as ``null``; NumPy scalars and
 arrays are stored as Python numbers and lists. Keys containing ``"time"`` are wall-clock measurements by
@@ -18,11 +20,12 @@ convention and :func:`comparable` drops them before rows are compared.
 
 from __future__ import annotations
 
+import contextlib
 import json
 import math
 import os
 import re
-from collections.abc import Iterable, Mapping
+from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass, field, fields
 from pathlib import Path
 from types import TracebackType
@@ -33,11 +36,17 @@ import numpy as np
 from hearnav.bench.keys import changed_parts
 from hearnav.errors import HearnavError, short_repr
 
+try:
+    import fcntl
+except ImportError:  # Windows: no flock
+    fcntl = None
+
 EPISODES_FILE = "episodes.jsonl"
 SUMMARY_FILE = "summary.json"
 MANIFEST_FILE = "run.json"
 DONE_STATUSES = ("ok", "failed")
 MANIFEST_KEYS = ("run_key",)
+LOCK_FILE = ".lock"
 KEY_FIELD = "run_key"
 _KEY_TEXT = re.compile(r"[0-9a-f]{1,64}")  # a key as written; anything else is shown through short_repr
 
@@ -506,3 +515,40 @@ def check_manifest(directory: str | os.PathLike, manifest: Mapping[str, Any]) ->
         write_manifest(directory, manifest)
         return dict(manifest)
     return stored
+
+
+@contextlib.contextmanager
+def lock_folder(directory: str | os.PathLike) -> Iterator[Path]:
+    """Hold an exclusive lock on a run folder (``flock`` of ``DIR/.lock``) until the block ends.
+
+    The lock is taken without waiting: if another process holds it, :class:`ResultsError` is raised at once.
+    It is released when the block ends or the process dies. Where ``fcntl`` does not exist (Windows) the
+    folder is not locked.
+
+    Parameters
+    ----------
+    directory : str or PathLike
+        The run folder; it must exist.
+
+    Yields
+    ------
+    Path
+        The lock file.
+    """
+    path = Path(directory) / LOCK_FILE
+    try:
+        fd = os.open(path, os.O_RDWR | os.O_CREAT, 0o644)
+    except OSError as exc:
+        raise ResultsError(f"{path}: expected to create the run folder's lock file, got {exc.strerror}: "
+                           f"choose a writable --out folder") from None
+    try:
+        if fcntl is not None:
+            try:
+                fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+            except BlockingIOError:
+                raise ResultsError(f"{directory} is in use by another run (expected a results folder no other run "
+                                   f"writes to, found {LOCK_FILE} locked): wait for that run to end or use a new "
+                                   f"--out folder") from None
+        yield path
+    finally:
+        os.close(fd)  # closing the last descriptor of the open file releases the lock

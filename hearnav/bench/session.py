@@ -1,6 +1,6 @@
 """Run policies on a suite as a library call: rows in DIR/episodes.jsonl, the summary in DIR/summary.json.
 
-:func:`run` checks that the run manifest and rows carry this run's result key
+:func:`run` locks the run folder, checks that the manifest and rows carry this run's result key
 (:mod:`hearnav.bench.keys`), repairs a torn last row, skips the episodes already done (resume), computes the
 oracle bounds, runs the remaining episodes and writes the summary. It prints nothing; pass ``progress`` to
 follow it.
@@ -85,7 +85,7 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
         Policy references: registered names, ``module:attr`` or ``path/to/file.py:attr``.
     out : str or PathLike
         The results folder; rerunning into it resumes. It must not hold results under another result key
-        (another suite, scene version, acoustic setting, code version or plug-in).
+        (another suite, scene version, acoustic setting, code version or plug-in), nor be in use by another run.
     workers : int
         Worker processes.
     reference : str
@@ -117,25 +117,26 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
     key = result_key(parts)
     out = Path(out)
     out.mkdir(parents=True, exist_ok=True)
-    results.check_manifest(out, {"suite": suite.name, "suite_hash": suite.digest(), "code_version": code_version(),
-                                 "run_key": key, "key_parts": parts})
-    rows_path = out / results.EPISODES_FILE
-    results.repair(rows_path)
-    done = results.done_keys(results.read_rows(rows_path))
-    seeds = suite.episode_seeds()
-    workers = worker_count(workers, len(seeds))
-    oracles = compute_oracles(suite, cache_dir() / "oracle", workers,
-                              progress=_counter(progress, ORACLE_STAGE, len(seeds)))
-    audio_dir = str(out / "audio") if save_audio else None
-    tasks = [Task(ref, k, s, oracles[s], audio_dir if k < save_audio else None)
-             for ref in policies for k, s in enumerate(seeds) if (ref, s) not in done]
-    step = _counter(progress, suite.name, len(tasks))
-    with results.ResultWriter(rows_path) as writer:
-        for result in run_tasks(suite, tasks, workers):
-            writer.append(dataclasses.replace(result, run_key=key))
-            step()
-    rows = results.read_rows(rows_path)
-    summary = dataclasses.replace(summarise(rows, reference=reference), suite=suite.name,
-                                  suite_hash=suite.digest(), code_version=code_version(), run_key=key)
-    results.write_json(out / results.SUMMARY_FILE, summary.to_dict())
+    with results.lock_folder(out):
+        results.check_manifest(out, {"suite": suite.name, "suite_hash": suite.digest(), "code_version": code_version(),
+                                     "run_key": key, "key_parts": parts})
+        rows_path = out / results.EPISODES_FILE
+        results.repair(rows_path)
+        done = results.done_keys(results.read_rows(rows_path))
+        seeds = suite.episode_seeds()
+        workers = worker_count(workers, len(seeds))
+        oracles = compute_oracles(suite, cache_dir() / "oracle", workers,
+                                  progress=_counter(progress, ORACLE_STAGE, len(seeds)))
+        audio_dir = str(out / "audio") if save_audio else None
+        tasks = [Task(ref, k, s, oracles[s], audio_dir if k < save_audio else None)
+                 for ref in policies for k, s in enumerate(seeds) if (ref, s) not in done]
+        step = _counter(progress, suite.name, len(tasks))
+        with results.ResultWriter(rows_path) as writer:
+            for result in run_tasks(suite, tasks, workers):
+                writer.append(dataclasses.replace(result, run_key=key))
+                step()
+        rows = results.read_rows(rows_path)
+        summary = dataclasses.replace(summarise(rows, reference=reference), suite=suite.name,
+                                      suite_hash=suite.digest(), code_version=code_version(), run_key=key)
+        results.write_json(out / results.SUMMARY_FILE, summary.to_dict())
     return summary

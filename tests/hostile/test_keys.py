@@ -1,12 +1,15 @@
-"""Result keys (issue 11, item 2).
+"""Result keys and the run-folder lock (issue 11, items 2 and 9).
 
 A run folder, its rows and the oracle-bound cache are keyed by everything that changes a result, so an edited
 scene file under the same name recomputes its bounds, and a rerun into the old ``--out`` is refused in one
-line; rows carry the key, so a deleted ``run.json`` lets no other run's rows in.
+line; rows carry the key, so a deleted ``run.json`` lets no other run's rows in; a second run on a folder in
+use fails at once. The lock is ``flock`` on ``DIR/.lock`` (POSIX ``flock`` semantics, as in Linux flock(2):
+a lock taken through another open file description conflicts, even in the same process).
 """
 
 from __future__ import annotations
 
+import fcntl
 import json
 import shutil
 from pathlib import Path
@@ -14,7 +17,7 @@ from pathlib import Path
 import pytest
 import yaml
 
-from hearnav.bench.results import read_rows
+from hearnav.bench.results import LOCK_FILE, read_rows
 from hearnav.bench.suites import load_suite
 from hearnav.cli import main
 from hearnav.errors import short_repr
@@ -26,6 +29,8 @@ HERE = Path(__file__).parent / "keys"
 ROOM = "keys-room"
 SUITE = {"name": "keys-tiny", "episodes": 2, "seed": 7,
          "env": {"scenes": [ROOM], "acoustics": FAST_ACOUSTICS, "budget": 2, "target_category": ["talker", "noise"]}}
+# A hang guard, not a speed goal: a second run that waited for the lock would never return.
+pytestmark = pytest.mark.timeout(120)
 
 
 def _scene(absorption: float) -> dict:
@@ -91,6 +96,7 @@ def test_an_edited_scene_recomputes_its_bounds_and_its_old_folder_is_refused(set
     assert {r["run_key"] for r in read_rows(fresh / "episodes.jsonl")} == {new_key}
     assert json.loads((fresh / "run.json").read_text())["run_key"] == new_key
     assert json.loads((fresh / "summary.json").read_text())["run_key"] == new_key
+    assert (fresh / LOCK_FILE).exists()  # left behind, empty and unlocked: the next run takes it
     assert _bench(suite, fresh, capsys)[0] == 0  # a resume under the same key is accepted
 
 
@@ -114,7 +120,7 @@ def test_rows_of_another_key_are_refused_without_a_manifest(setup, capsys, craft
     shutil.copy(HERE / crafted, out / "episodes.jsonl")  # as if run.json had been deleted
     code, err = _bench(suite, out, capsys)
     assert code == 2 and err == _refusal(out / "episodes.jsonl line 1", found, _key(suite))
-    assert sorted(p.name for p in out.iterdir()) == ["episodes.jsonl"]  # no run.json written
+    assert sorted(p.name for p in out.iterdir()) == [LOCK_FILE, "episodes.jsonl"]  # no run.json written
     assert (out / "episodes.jsonl").read_bytes() == (HERE / crafted).read_bytes()  # nothing lost
 
 
@@ -143,3 +149,15 @@ def test_a_rerun_after_deleting_the_manifest_under_another_suite_is_refused(setu
     suite.write_text(yaml.safe_dump({**SUITE, "seed": 8}))
     code, err = _bench(suite, out, capsys)
     assert code == 2 and err == _refusal(out / "episodes.jsonl line 1", first, _key(suite))
+
+
+def test_a_second_run_on_a_folder_in_use_fails_at_once(setup, capsys):
+    _, suite, out = setup
+    out.mkdir()
+    with open(out / LOCK_FILE, "w") as held:  # the first run, holding the folder
+        fcntl.flock(held, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        code, err = _bench(suite, out, capsys)
+    assert code == 2
+    assert err == (f"hearnav: error: {out} is in use by another run (expected a results folder no other run "
+                   f"writes to, found {LOCK_FILE} locked): wait for that run to end or use a new --out folder")
+    assert sorted(p.name for p in out.iterdir()) == [LOCK_FILE]  # no manifest, no rows
