@@ -161,3 +161,25 @@ def test_a_second_run_on_a_folder_in_use_fails_at_once(setup, capsys):
     assert err == (f"hearnav: error: {out} is in use by another run (expected a results folder no other run "
                    f"writes to, found {LOCK_FILE} locked): wait for that run to end or use a new --out folder")
     assert sorted(p.name for p in out.iterdir()) == [LOCK_FILE]  # no manifest, no rows
+
+
+def test_an_edited_plug_in_file_changes_the_key(setup, tmp_path):
+    import importlib.util
+
+    from hearnav.separation import register_separator
+    from hearnav.separation.registry import SEPARATORS
+
+    _, suite, _ = setup
+    plugin = tmp_path / "keys_plugin.py"
+    plugin.write_text("def left(mixture, ctx):\n    return mixture[0]\n")
+    spec = importlib.util.spec_from_file_location("keys_plugin", plugin)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    register_separator("keys-left", module.left)
+    try:
+        suite.write_text(yaml.safe_dump({**SUITE, "env": {**SUITE["env"], "separator": "keys-left"}}))
+        before = _key(suite)
+        plugin.write_text("def left(mixture, ctx):\n    return mixture[1]\n")  # same name, other code
+        assert _key(suite) != before
+    finally:
+        SEPARATORS.remove("keys-left")
