@@ -54,7 +54,8 @@ def _probe(folder: Path, refuse: Callable[[str], ConfigError]) -> None:
 def _check(path: Path, folder: Path, refuse: Callable[[str], ConfigError]) -> None:
     anchor = _existing_ancestor(folder)
     if not anchor.is_dir():
-        raise refuse("an existing file" if anchor == path else f"a file on its way, {shown_path(anchor)}")
+        kind = "broken symbolic link" if anchor.is_symlink() and not anchor.exists() else "file"
+        raise refuse(f"an existing {kind}" if anchor == path else f"a {kind} on its way, {shown_path(anchor)}")
     _probe(folder, refuse)
 
 

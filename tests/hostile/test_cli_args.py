@@ -338,3 +338,11 @@ def test_the_largest_named_distance_is_met_every_time(two_spot_room):
         plan = _draw(two_spot_room, 3.25, seed)
         target = scene.spots[plan.sources[0].spot].position[:2]
         assert np.hypot(*(grid.centres[plan.start_cell] - target)) >= 3.25
+
+
+def test_out_through_a_broken_link_says_so(tmp_path, capsys):
+    link = tmp_path / "results"
+    link.symlink_to(tmp_path / "gone")
+    code, line = _first_error(["bench", "--policy", "still", "--out", link / "run"], capsys)
+    assert (code, line) == (2, f"hearnav: error: --out '{link / 'run'}': {FOLDER}, found a broken symbolic link on "
+                               f"its way, '{link}'; {FIX}")
