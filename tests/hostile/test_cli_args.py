@@ -16,7 +16,7 @@ from hearnav.bench import registry
 from hearnav.bench.policy import as_policy
 from hearnav.cli import main, scenes_cmd
 from hearnav.cli.scenes_cmd import image_formats
-from hearnav.errors import PolicyError
+from hearnav.errors import ConfigError, PolicyError
 from hearnav.scene.library import DEFAULT_SCENE
 
 HERE = Path(__file__).parent
@@ -145,7 +145,7 @@ def test_build_threads_out_of_range_is_one_line(threads, monkeypatch, capsys):
 def test_build_threads_are_capped_at_64_on_big_machines(monkeypatch):
     monkeypatch.setattr(os, "cpu_count", lambda: 256)
     assert scenes_cmd.thread_count(64) == 64
-    with pytest.raises(Exception, match=r"^--threads must be 1 to 64 \(this machine's CPU count, 256, at most 64\), "
+    with pytest.raises(ConfigError, match=r"^--threads must be 1 to 64 \(this machine's CPU count, 256, at most 64\), "
                                         r"got 65; use 64 or fewer$"):
         scenes_cmd.thread_count(65)
 
