@@ -7,6 +7,7 @@ so that the command line can print it on one line without a traceback.
 from __future__ import annotations
 
 import difflib
+import os
 import reprlib
 from collections.abc import Iterable
 
@@ -63,6 +64,27 @@ def short_repr(value: object, width: int = 60) -> str:
     a huge or deeply shared value costs no more than a small one."""
     text = _REPR.repr(value)
     return text if len(text) <= width else text[: width - 3] + "..."
+
+
+#: Paths up to this many characters are shown whole (by shown_path); longer ones through short_repr.
+SHOWN_PATH = 160
+
+
+def shown_path(path: object) -> str:
+    """A path (or a reference naming a file) quoted for a message, whole unless it is longer than
+    :data:`SHOWN_PATH`; anything else, such as a file descriptor, through :func:`short_repr`."""
+    if not isinstance(path, (str, bytes, os.PathLike)):
+        return short_repr(path)
+    text = os.fsdecode(path)
+    return repr(text) if len(text) <= SHOWN_PATH else short_repr(text)
+
+
+def exception_line(exc: BaseException, width: int = 200) -> str:
+    """``Type: first line of the message``, at most ``width`` characters of message: how a foreign exception
+    (a plug-in's, a library's) is named on hearnav's one-line messages."""
+    lines = str(exc).strip().splitlines()
+    text = lines[0] if lines else "(no message)"
+    return f"{type(exc).__name__}: {text if len(text) <= width else text[: width - 3] + '...'}"
 
 
 def unknown_name(kind: str, name: str, valid: Iterable[str]) -> str:

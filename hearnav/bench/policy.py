@@ -14,11 +14,13 @@ marked privileged in every result.
 
 from __future__ import annotations
 
+import inspect
+from collections.abc import Callable
 from typing import Any, Protocol, runtime_checkable
 
 import numpy as np
 
-from hearnav.errors import PolicyError
+from hearnav.errors import PolicyError, exception_line, short_repr, shown_path
 
 
 @runtime_checkable
@@ -69,22 +71,43 @@ class SB3Policy:
         return int(np.asarray(action).reshape(-1)[0])
 
 
-def as_policy(obj: Any) -> Any:
-    """A policy from a policy, an SB3-style model, a class (instantiated with no arguments) or a factory."""
+def _make(maker: Callable[[], Any], role: str, reference: str | None) -> Any:
+    """``maker()``; a policy's own exception becomes one PolicyError line naming the policy and the exception."""
+    try:
+        return maker()
+    except Exception as exc:  # the policy's code, not hearnav's: report it in one line
+        name = shown_path(reference) if reference is not None else short_repr(getattr(maker, "__qualname__", maker))
+        raise PolicyError(f"policy {name} could not be made: its {role} raised {exception_line(exc)} "
+                          f"(fix the policy)") from None
+
+
+def _takes_no_arguments(cls: type) -> bool:
+    try:
+        inspect.signature(cls).bind()
+    except TypeError:
+        return False
+    except ValueError:  # no signature to read (some built-in types): let the call decide
+        return True
+    return True
+
+
+def as_policy(obj: Any, reference: str | None = None) -> Any:
+    """A policy from a policy, an SB3-style model, a class (instantiated with no arguments) or a factory;
+    ``reference`` (how the user named it) is quoted when making it fails."""
     if isinstance(obj, type):
-        try:
-            obj = obj()
-        except TypeError as exc:
-            raise PolicyError(f"policy class {obj.__name__} must take no arguments (got {exc})") from None
+        if not _takes_no_arguments(obj):
+            raise PolicyError(f"policy class {obj.__name__} must take no arguments (got the signature "
+                              f"{short_repr(str(inspect.signature(obj)), 80)}); give it defaults or use a factory")
+        obj = _make(obj, "constructor", reference)
     if callable(getattr(obj, "act", None)) and callable(getattr(obj, "reset", None)):
         return obj
     if callable(getattr(obj, "predict", None)):
         return SB3Policy(obj)
     if callable(obj):
-        made = obj()
+        made = _make(obj, "factory", reference)
         if callable(getattr(made, "act", None)) or callable(getattr(made, "predict", None)):
-            return as_policy(made)
-        raise PolicyError(f"policy factory {getattr(obj, '__name__', obj)!r} returned {type(made).__name__}, "
-                          f"expected an object with reset() and act(), or predict()")
+            return as_policy(made, reference)
+        raise PolicyError(f"policy factory {getattr(obj, '__name__', short_repr(obj))!r} returned "
+                          f"{type(made).__name__}, expected an object with reset() and act(), or predict()")
     raise PolicyError(f"expected a policy (reset() and act()), an SB3-style model (predict()), a class or a "
                       f"factory; got {type(obj).__name__}")

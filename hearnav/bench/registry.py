@@ -16,11 +16,12 @@ from typing import Any
 
 from hearnav import bundled
 from hearnav.bench.policy import as_policy
-from hearnav.errors import PolicyError
+from hearnav.errors import PolicyError, exception_line
 from hearnav.plugins import Registry
 
 POLICIES: Registry[Any] = Registry("policy", "hearnav.policies", PolicyError)
 _loaded = False
+_MISSING = object()
 
 
 def register_policy(name: str, obj: Any = None) -> Callable:
@@ -45,7 +46,7 @@ def _load_file(path: Path) -> Any:
         spec.loader.exec_module(module)
     except Exception as exc:  # a user's file: report it in one line
         del sys.modules[module_name]
-        raise PolicyError(f"{path}: importing the policy file failed ({type(exc).__name__}: {exc})") from None
+        raise PolicyError(f"{path}: importing the policy file failed ({exception_line(exc)})") from None
     return module
 
 
@@ -66,14 +67,26 @@ def policy_names() -> list[str]:
     return sorted(POLICIES.names())
 
 
+def _registered_in(module: Any, name: str) -> Any:
+    """The policy ``module`` registered as ``name`` (with :func:`register_policy`), else _MISSING."""
+    if name not in POLICIES:
+        return _MISSING
+    item = POLICIES.get(name)
+    return item if getattr(item, "__module__", None) == module.__name__ else _MISSING
+
+
 def load_policy(reference: str) -> tuple[str, Any]:
-    """(display name, policy object) for a registered name, ``module:attr`` or ``file.py:attr``."""
+    """(display name, policy object) for a registered name, ``module:attr`` or ``file.py:attr``; ``attr`` may
+    also be a name the module or file registers with :func:`register_policy` (``my_policy.py:turn-to-target``)."""
     load_builtins()
     if ":" not in reference:
         try:
-            return reference, as_policy(POLICIES.get(reference))
+            return reference, as_policy(POLICIES.get(reference), reference)
         except PolicyError as exc:
-            raise PolicyError(f"{exc}; or give module:attr or path/to/file.py:attr") from None
+            if reference not in POLICIES:
+                raise PolicyError(f"{exc}; or give module:attr or path/to/file.py:attr (a name registered in "
+                                  f"your file is path/to/file.py:name)") from None
+            raise
     where, attr = reference.rsplit(":", 1)
     if where.endswith(".py"):
         path = Path(where)
@@ -85,6 +98,10 @@ def load_policy(reference: str) -> tuple[str, Any]:
             module = importlib.import_module(where)
         except ImportError as exc:
             raise PolicyError(f"cannot import module {where!r} for policy {reference!r} ({exc})") from None
-    if not hasattr(module, attr):
-        raise PolicyError(f"{where} has no attribute {attr!r} (expected module:attr naming a policy)")
-    return reference, as_policy(getattr(module, attr))
+    found = getattr(module, attr, _MISSING) if attr.isidentifier() else _MISSING
+    if found is _MISSING:
+        found = _registered_in(module, attr)
+    if found is _MISSING:
+        raise PolicyError(f"{where} has no attribute {attr!r} (expected module:attr naming a policy, or a name "
+                          f"it registers)")
+    return reference, as_policy(found, reference)

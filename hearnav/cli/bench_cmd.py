@@ -6,6 +6,8 @@ import os
 import sys
 from pathlib import Path
 
+from hearnav.cli.paths import output_folder
+
 
 def register(sub) -> None:
     """Add the ``bench`` subcommand."""
@@ -50,6 +52,7 @@ def run(args) -> int:
     from hearnav.bench.suites import load_suite
     from hearnav.report import format_table
 
+    output_folder(args.out)
     suite = load_suite(str(args.suite))
     workers = worker_count(args.workers, suite.episodes) if args.workers >= 1 else args.workers
     if workers != args.workers:

@@ -2,13 +2,18 @@
 
 from __future__ import annotations
 
+import os
 import sys
 import time
 from pathlib import Path
 
 import numpy as np
 
-from hearnav.errors import SceneError
+from hearnav.cli.paths import output_file
+from hearnav.errors import ConfigError, SceneError, shown_path
+
+#: pyroomacoustics threads are capped here whatever the CPU count (AcousticSettings.n_threads allows no more).
+MAX_THREADS = 64
 
 
 def register(sub) -> None:
@@ -27,13 +32,15 @@ def register(sub) -> None:
 
     sh = ss.add_parser("show", help="draw a scene's plan to an image")
     sh.add_argument("name", help="scene name or path to a YAML file")
-    sh.add_argument("--out", type=Path, required=True, help="output image, e.g. plan.png")
+    sh.add_argument("--out", type=Path, required=True,
+                    help="output image, e.g. plan.png or plan.svg (a folder: FOLDER/<scene>.png)")
     sh.set_defaults(run=run_show)
 
     bd = ss.add_parser("build", help="precompute and cache binaural responses")
     bd.add_argument("names", nargs="*", help="scene names or YAML files (default: the default scene)")
     bd.add_argument("--split", choices=["train", "val", "test"], help="every scene of a split")
-    bd.add_argument("--threads", type=int, default=1, help="pyroomacoustics threads (default 1)")
+    bd.add_argument("--threads", type=int, default=1,
+                    help=f"pyroomacoustics threads, 1 to the CPU count (at most {MAX_THREADS}; default 1)")
     bd.set_defaults(run=run_build)
 
 
@@ -93,14 +100,44 @@ def run_check(args) -> int:
     return 1 if bad else 0
 
 
+def image_formats() -> list[str]:
+    """File suffixes (without the dot) the plan can be saved as: matplotlib's supported file types."""
+    from matplotlib.figure import Figure
+
+    return sorted(Figure().canvas.get_supported_filetypes())
+
+
+def plan_path(out: Path, scene_name: str) -> Path:
+    """Where ``scenes show --out OUT`` writes: OUT itself, or OUT/<scene>.png for an existing folder; raises
+    ConfigError for a suffix matplotlib cannot write or a folder that cannot be made."""
+    if out.is_dir():
+        out = out / f"{scene_name}.png"
+    formats = image_formats()
+    suffix = out.suffix[1:].lower()
+    if suffix not in formats:
+        found = f"the suffix {shown_path(out.suffix)}" if suffix else "no suffix"
+        raise ConfigError(f"--out {shown_path(out)}: expected an image file name ending in a supported format or an "
+                          f"existing folder, found {found}; supported: {', '.join(formats)} (e.g. plan.png)")
+    return output_file(out)
+
+
 def run_show(args) -> int:
     from hearnav.plots.plan import save_plan
     from hearnav.scene.grid import build_grid
 
     scene = scene_argument(args.name)
-    out = save_plan(scene, build_grid(scene), args.out)
+    out = save_plan(scene, build_grid(scene), plan_path(args.out, scene.name))
     print(f"wrote {out}")
     return 0
+
+
+def thread_count(requested: int) -> int:
+    """``requested`` if it is 1 to the CPU count (at most MAX_THREADS); raises ConfigError."""
+    top = min(MAX_THREADS, os.cpu_count() or 1)
+    if not 1 <= requested <= top:
+        raise ConfigError(f"--threads must be 1 to {top} (this machine's CPU count, {os.cpu_count()}, at most "
+                          f"{MAX_THREADS}), got {requested}; use {top} or fewer")
+    return requested
 
 
 def run_build(args) -> int:
@@ -110,8 +147,8 @@ def run_build(args) -> int:
     from hearnav.scene.grid import build_grid
     from hearnav.scene.library import DEFAULT_SCENE, scene_names
 
+    settings = AcousticSettings(n_threads=thread_count(args.threads))
     names = list(args.names) or (scene_names(args.split) if args.split else [DEFAULT_SCENE])
-    settings = AcousticSettings(n_threads=max(1, args.threads))
     for name in names:
         scene = scene_argument(name)
         grid = build_grid(scene, settings.n_headings)

@@ -22,13 +22,14 @@ from hearnav.env.episode import (
 from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor, band_edges
 from hearnav.env.privileged import PrivilegedView
 from hearnav.env.worlds import World, get_maps, get_world, scene_list
-from hearnav.errors import ConfigError, HearnavError
+from hearnav.errors import ConfigError, HearnavError, did_you_mean, short_repr
 from hearnav.listening import FADE_S, ListeningSession, Source, Window
 from hearnav.separation import SeparationContext, get_separator
 from hearnav.separation.metrics import si_sdrs_unchecked
 from hearnav.separation.stft import stft
 
-__all__ = ["ACTION_NAMES", "Action", "HearNavEnv", "Heard", "InvalidActionError", "scored_part"]
+__all__ = ["ACTION_NAMES", "Action", "HearNavEnv", "Heard", "InvalidActionError", "RESET_OPTIONS",
+           "check_reset_options", "scored_part"]
 
 MAX_DISTANCE = 50.0
 #: Windows the start may be delayed by while the target is silent.
@@ -39,6 +40,34 @@ SILENT_ENERGY = 1e-12
 
 class InvalidActionError(HearnavError, ValueError):
     """An action outside the action space."""
+
+
+#: Keys ``reset(options=...)`` accepts: none; every option is given when the environment is made.
+RESET_OPTIONS: tuple[str, ...] = ()
+
+
+def check_reset_options(options: object) -> None:
+    """Raise ConfigError for anything ``reset(options=...)`` would otherwise ignore: every key is unknown
+    (:data:`RESET_OPTIONS`), and an environment option given there is pointed to the constructor."""
+    if options is None:
+        return
+    if not isinstance(options, dict):
+        raise ConfigError(f"reset(options=...) expected a dict or None, got {type(options).__name__}; "
+                          f"pass options=None")
+    for key in options:
+        if key in RESET_OPTIONS:
+            continue
+        valid = f"one of {', '.join(RESET_OPTIONS)}" if RESET_OPTIONS else "no keys: reset takes no options"
+        found = f"reset(options=...) got the unknown key {short_repr(key)} (expected {valid})"
+        fields = list(EnvConfig.model_fields)
+        if key in fields:
+            raise ConfigError(f"{found}; {key!r} is an environment option: make the environment with "
+                              f"HearNavEnv({key}=...) instead")
+        close = did_you_mean(str(key), fields) if isinstance(key, str) else ""
+        if close.startswith("did you mean"):
+            raise ConfigError(f"{found}; environment options are given when making it ({close})")
+        raise ConfigError(f"{found}; drop it (environment options are given when making the environment: "
+                          f"{', '.join(fields)})")
 
 
 def scored_part(window: Window, fade: int) -> Window:
@@ -137,7 +166,10 @@ class HearNavEnv(gym.Env):
     "unseen"), ``distractor_level_db`` ([low, high] relative to the target), ``min_start_distance`` (m),
     ``step_s``, ``budget``, ``separator``, ``reward_clip``, ``n_bands``, ``n_segments``, ``patch_size``,
     ``fov_deg`` and ``acoustics`` (:class:`hearnav.acoustics.AcousticSettings` fields). Unknown options and
-    out-of-range values raise :class:`hearnav.errors.ConfigError`. ``render_mode="rgb_array"`` draws the plan,
+    out-of-range values raise :class:`hearnav.errors.ConfigError`, and so does any key of ``reset(options=...)``
+    (reset takes no options) and a ``min_start_distance`` that no navigable cell meets for some target spot of
+    a scene (at the first reset there, naming the largest distance that scene allows; the start is drawn from
+    the start region, else from every navigable cell). ``render_mode="rgb_array"`` draws the plan,
     the target (red) and distractors (grey), the listener's pose and its path.
     """
 
@@ -187,6 +219,7 @@ class HearNavEnv(gym.Env):
     # -- episode -----------------------------------------------------------------------------------------------
 
     def reset(self, *, seed: int | None = None, options: dict | None = None):
+        check_reset_options(options)
         super().reset(seed=seed)
         rng = self.np_random
         name = self.scene_names[int(rng.integers(len(self.scene_names)))]

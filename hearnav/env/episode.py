@@ -2,13 +2,14 @@
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
 
 from hearnav import sounds
 from hearnav.env.config import EnvConfig
-from hearnav.errors import ConfigError, unknown_name
+from hearnav.errors import ConfigError, short_repr, unknown_name
 from hearnav.scene.grid import Grid
 from hearnav.scene.model import Scene
 from hearnav.tables.sounds import dry_signal
@@ -66,12 +67,33 @@ def check_categories(cfg: EnvConfig) -> None:
 
 
 def _start(grid: Grid, target_xy: np.ndarray, min_dist: float, rng: np.random.Generator) -> int:
+    """A start cell at least ``min_dist`` from the target: from the start region if one is far enough, else from
+    every navigable cell (:func:`check_start_distance` has made sure one is)."""
     dist = np.linalg.norm(grid.centres - target_xy, axis=1)
     for pool in (grid.start_cells, np.arange(grid.n_cells)):
         far = pool[dist[pool] >= min_dist]
         if far.size:
             return int(rng.choice(far))
-    return int(np.argmax(dist))
+    raise ConfigError(f"no navigable cell is {min_dist:g} m from the target (expected one); lower "
+                      f"min_start_distance")
+
+
+def start_reach(grid: Grid, xy: np.ndarray) -> float:
+    """Distance in metres from ``xy`` to the farthest navigable cell centre: the largest start distance there."""
+    return float(np.linalg.norm(grid.centres - xy, axis=1).max()) if grid.n_cells else 0.0
+
+
+def check_start_distance(cfg: EnvConfig, scene_name: str, scene: Scene, grid: Grid, targets: list[int]) -> None:
+    """Raise ConfigError if ``min_start_distance`` cannot be met for some target spot of the scene, naming the
+    largest distance every target spot allows. Draws nothing, so valid configurations draw as before."""
+    wanted = cfg.min_start_distance
+    reach = {s: start_reach(grid, scene.spots[s].position[:2]) for s in targets}
+    spot = min(reach, key=reach.get)
+    if reach[spot] < wanted:
+        largest = math.floor(reach[spot] * 100) / 100
+        raise ConfigError(f"option 'min_start_distance': {wanted:g} m cannot be met in scene {short_repr(scene_name)} "
+                          f"(expected at most {largest:.2f} m: no navigable cell is farther from target spot "
+                          f"{short_repr(scene.spots[spot].name)}); lower min_start_distance or choose other scenes")
 
 
 def draw_episode(rng: np.random.Generator, cfg: EnvConfig, scene_name: str, scene: Scene, grid: Grid) -> EpisodePlan:
@@ -87,6 +109,7 @@ def draw_episode(rng: np.random.Generator, cfg: EnvConfig, scene_name: str, scen
     if not targets:
         raise ConfigError(f"scene {scene_name!r} has no spot that accepts target category {cfg.target_category!r} "
                           f"(expected at least one); choose other scenes or another category")
+    check_start_distance(cfg, scene_name, scene, grid, targets)
     target = int(rng.choice(targets))
     lo, hi = cfg.distractors
     n_dist = int(rng.integers(lo, hi + 1))
