@@ -13,6 +13,7 @@ from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+from hearnav import files
 from hearnav.bench import results
 from hearnav.errors import ConfigError
 
@@ -116,7 +117,7 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
     for ref in policies:  # unknown names fail here, in one line, before any work
         load_policy(ref)
     out = Path(out)
-    out.mkdir(parents=True, exist_ok=True)
+    files.make_folder(out, results.OUTPUT)  # a read-only or full --out is one line naming it
     results.check_manifest(out, {"suite": suite.name, "suite_hash": suite.digest(), "code_version": code_version()})
     rows_path = out / results.EPISODES_FILE
     results.repair(rows_path)
