@@ -205,7 +205,8 @@ def build_lock(path: Path, place: Place) -> Iterator[None]:
     locks = path.parent / LOCKS
     lock_path = locks / f"{path.name}.lock"
     while True:
-        make_folder(locks, place)
+        with writing(path.parent, place):  # the error names the cache folder, not its .locks
+            locks.mkdir(parents=True, exist_ok=True)
         try:
             fd = os.open(lock_path, os.O_RDWR | os.O_CREAT | os.O_CLOEXEC, 0o666)
         except FileNotFoundError:  # the lock folder was removed by a releasing holder meanwhile
