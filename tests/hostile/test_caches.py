@@ -501,3 +501,13 @@ def test_created_files_and_folders_follow_the_umask(built, scene, fast_settings,
             out / "summary.json", out / results.EPISODES_FILE]
     assert {str(p): oct(p.stat().st_mode & 0o777) for p in made} == {str(p): oct(0o666 & ~umask) for p in made}
     assert oct(folder.stat().st_mode & 0o777) == oct(0o777 & ~umask)
+
+
+def test_a_plan_into_a_read_only_folder_is_one_line_naming_it(tmp_path, monkeypatch, capsys):
+    scene_file = _tiny_scene_file(tmp_path)
+    (tmp_path / "ro").mkdir()
+    Refuse(monkeypatch, errno.EROFS).under(tmp_path / "ro")
+    code, lines = _cli(["scenes", "show", scene_file, "--out", tmp_path / "ro" / "plan.png"], capsys)
+    assert code == 2
+    assert lines == [f"hearnav: error: cannot write the plan in {tmp_path / 'ro'} (read-only file system): "
+                     f"choose a writable --out path"]
