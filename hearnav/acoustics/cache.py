@@ -1,25 +1,26 @@
 """On-disk cache of a scene's responses.
 
 A file is keyed by a hash of the scene file's content, the acoustic settings and the model version. Writes
-go to a temporary file in the same folder, are fsynced and then renamed, so a reader never sees a partial
-file and two builders of the same scene leave one valid file. Loading never unpickles. A checksum over
-every array detects truncated or corrupt files, which are reported in one line and rebuilt.
+go to a temporary file in the same folder, are fsynced and then renamed (:func:`hearnav.files.atomic_write`), so
+a reader never sees a partial file and two builders of the same scene leave one valid file; builders take the
+folder's build lock, readers none, so a valid cache in a read-only folder loads. Loading never unpickles, and
+checks every array's .npy header against the dtype and shape the metadata record before allocating it. A
+checksum over every array detects truncated or corrupt files; any unreadable or inconsistent file is reported
+in one line and rebuilt.
 """
 
 from __future__ import annotations
 
-import contextlib
-import fcntl
 import hashlib
 import json
 import os
-import tempfile
 import zipfile
 from collections.abc import Callable
 from pathlib import Path
 
 import numpy as np
 
+from hearnav import files, npyfile
 from hearnav.acoustics.responses import Responses, build_responses
 from hearnav.acoustics.settings import MODEL_VERSION, AcousticSettings
 from hearnav.errors import CacheError
@@ -27,6 +28,9 @@ from hearnav.scene.grid import Grid, build_grid
 from hearnav.scene.model import Scene
 
 _FIELDS = tuple(Responses.__dataclass_fields__)
+PLACE = files.cache_place("the response cache")
+# Most bytes of the metadata string (key, checksum, a dtype and shape per array: well under a kilobyte).
+_META_BYTES = 1 << 16
 
 
 def cache_dir() -> Path:
@@ -64,63 +68,83 @@ def _checksum(arrays: dict[str, np.ndarray]) -> str:
 def _encode(responses: Responses, key: str) -> dict[str, np.ndarray]:
     arrays = responses.arrays()
     arrays["spot_names"] = np.asarray(json.dumps(list(responses.spot_names)))
-    meta = {"key": key, "model": MODEL_VERSION, "checksum": _checksum(arrays)}
+    shapes = {name: [a.dtype.str, list(a.shape)] for name, a in arrays.items()}
+    meta = {"key": key, "model": MODEL_VERSION, "checksum": _checksum(arrays), "arrays": shapes}
     arrays["meta"] = np.asarray(json.dumps(meta))
     return arrays
 
 
 def save(responses: Responses, path: Path, key: str) -> None:
-    """Write atomically: temporary file, fsync, rename."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=path.name + ".", suffix=".tmp", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as f:
-            np.savez(f, **_encode(responses, key))
-            f.flush()
-            os.fsync(f.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        with contextlib.suppress(FileNotFoundError):
-            os.unlink(tmp)
-        raise
+    """Write atomically (temporary file, fsync, rename); a failed write is one line naming the folder."""
+    arrays = _encode(responses, key)
+    files.atomic_write(path, lambda f: np.savez(f, **arrays), PLACE)
+
+
+def _member_limits(z: zipfile.ZipFile, size: int) -> dict[str, int]:
+    """Each array's name and the most bytes it may hold; refuses what np.savez does not write."""
+    limits = {}
+    for info in z.infolist():
+        if not info.filename.endswith(".npy") or info.compress_type != zipfile.ZIP_STORED:
+            raise npyfile.BadArray(f"member {info.filename[:40]!r} (expected stored .npy arrays only)")
+        limits[info.filename[:-4]] = min(info.file_size, size)
+    return limits
+
+
+def _read_arrays(path: Path) -> tuple[dict, dict[str, np.ndarray]]:
+    """(meta, arrays) of a cache file; every shape is checked against the metadata before it is allocated."""
+    with open(path, "rb") as f, zipfile.ZipFile(f) as z:
+        limits = _member_limits(z, os.fstat(f.fileno()).st_size)
+        if "meta" not in limits:
+            raise npyfile.BadArray("no meta array (expected the cache's metadata)")
+        with z.open("meta.npy") as m:
+            meta_array = npyfile.read_array(m, None, min(limits["meta"], _META_BYTES))
+        if meta_array.dtype.kind != "U" or meta_array.shape != ():
+            raise npyfile.BadArray(f"meta is {meta_array.dtype.str} of shape {meta_array.shape}, expected a string")
+        meta = json.loads(str(meta_array))
+        if not isinstance(meta, dict):
+            raise npyfile.BadArray(f"meta is {type(meta).__name__}, expected a JSON object")
+        declared = meta.get("arrays")  # absent from files of earlier versions: the size bound and checksum apply
+        if declared is not None and set(declared) != set(limits) - {"meta"}:
+            raise npyfile.BadArray("the arrays differ from those the metadata list")
+        arrays = {}
+        for name in sorted(set(limits) - {"meta"}):
+            with z.open(f"{name}.npy") as m:
+                arrays[name] = npyfile.read_array(m, declared[name] if declared else None, limits[name])
+    return meta, arrays
 
 
 def load(path: Path, key: str | None = None) -> Responses:
     """Read and verify a cache file; raises CacheError when it is truncated, corrupt or for another key."""
     try:
-        with np.load(path, allow_pickle=False) as data:
-            arrays = {name: data[name] for name in data.files}
-        meta = json.loads(str(arrays.pop("meta")))
-    except (OSError, ValueError, KeyError, EOFError, zipfile.BadZipFile) as exc:
-        raise CacheError(f"{path}: unreadable cache file (expected a complete .npz, got {type(exc).__name__}: {exc})") from None
+        meta, arrays = _read_arrays(path)
+    except Exception as exc:  # untrusted bytes: any failure to parse them means a damaged file
+        raise CacheError(f"{path}: unreadable cache file (expected a complete .npz, got {files.reason(exc)})") from None
     if meta.get("checksum") != _checksum(arrays):
         raise CacheError(f"{path}: cache checksum mismatch (expected {str(meta.get('checksum'))[:12]}..., the data differ)")
     if key is not None and meta.get("key") != key:
-        raise CacheError(f"{path}: cache key mismatch (expected {key}, got {meta.get('key')})")
+        raise CacheError(f"{path}: cache key mismatch (expected {key}, got {str(meta.get('key'))[:40]})")
     missing = set(_FIELDS) - set(arrays)
     if missing:
         raise CacheError(f"{path}: cache file lacks {sorted(missing)} (expected every response field)")
-    arrays["spot_names"] = tuple(json.loads(str(arrays["spot_names"])))
-    fields = {k: arrays[k] for k in _FIELDS}
-    fields["fs"], fields["lead"] = int(fields["fs"]), int(fields["lead"])
+    try:
+        spot_names = json.loads(str(arrays["spot_names"]))
+        if not (isinstance(spot_names, list) and all(isinstance(n, str) for n in spot_names)):
+            raise ValueError("spot_names is not a list of names")
+        fields = {k: arrays[k] for k in _FIELDS}
+        fields["spot_names"] = tuple(spot_names)
+        fields["fs"], fields["lead"] = int(fields["fs"]), int(fields["lead"])
+    except Exception as exc:
+        raise CacheError(f"{path}: inconsistent cache file (expected every response field, got {files.reason(exc)})") from None
     return Responses(**fields)
-
-
-@contextlib.contextmanager
-def _build_lock(path: Path):
-    path.parent.mkdir(parents=True, exist_ok=True)
-    with open(path.with_suffix(".lock"), "a+") as lock:
-        fcntl.flock(lock, fcntl.LOCK_EX)
-        try:
-            yield
-        finally:
-            fcntl.flock(lock, fcntl.LOCK_UN)
 
 
 def load_or_build(scene: Scene, settings: AcousticSettings, grid: Grid | None = None,
                   progress: Callable[[int], None] | None = None,
-                  report: Callable[[str], None] | None = None) -> Responses:
-    """The scene's responses from the cache, building (and storing) them when absent or damaged."""
+                  report: Callable[[str], None] | None = files.note) -> Responses:
+    """The scene's responses from the cache, building (and storing) them when absent or damaged.
+
+    Loading takes no lock, so a valid cache in a read-only folder loads; building takes the folder's build lock.
+    """
     grid = grid or build_grid(scene, settings.n_headings)
     path, key = cache_path(scene, settings), cache_key(scene, settings)
     if path.exists():
@@ -129,7 +153,7 @@ def load_or_build(scene: Scene, settings: AcousticSettings, grid: Grid | None = 
         except CacheError as exc:
             if report:
                 report(f"{exc}; rebuilding")
-    with _build_lock(path):
+    with files.build_lock(path, PLACE):
         if path.exists():  # another process may have built it while we waited
             try:
                 return load(path, key)

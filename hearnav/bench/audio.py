@@ -9,6 +9,9 @@ from pathlib import Path
 
 import numpy as np
 
+from hearnav import files
+from hearnav.bench.results import OUTPUT
+
 PEAK_DBFS = -1.0
 
 
@@ -24,7 +27,7 @@ def save_episode_audio(folder: Path, policy: str, index: int, windows: list[dict
 
     safe = "".join(ch if ch.isalnum() or ch in "-_." else "_" for ch in policy)
     folder = Path(folder) / safe
-    folder.mkdir(parents=True, exist_ok=True)
+    files.make_folder(folder, OUTPUT)
     parts = {
         "mixture": np.concatenate([w["mixture"] for w in windows], axis=1).T,
         "estimate": np.concatenate([w["estimate"] for w in windows]),
@@ -33,6 +36,7 @@ def save_episode_audio(folder: Path, policy: str, index: int, windows: list[dict
     out = []
     for name, data in parts.items():
         path = folder / f"episode{index:04d}-{name}.wav"
-        sf.write(path, normalise_peak(np.asarray(data, np.float64)).astype(np.float32), fs, subtype="FLOAT")
+        samples = normalise_peak(np.asarray(data, np.float64)).astype(np.float32)
+        files.atomic_write(path, lambda f: sf.write(f, samples, fs, subtype="FLOAT", format="WAV"), OUTPUT)
         out.append(path)
     return out

@@ -10,12 +10,17 @@ in the final window (suites choose targets that sound continuously).
 from __future__ import annotations
 
 import json
-import os
-import tempfile
 from collections import deque
+from collections.abc import Callable
 from pathlib import Path
 
+from hearnav import files
 from hearnav.env import Action, HearNavEnv
+from hearnav.errors import short_repr
+
+PLACE = files.cache_place("the oracle bounds")
+# Most bytes of an oracle file (about 30 per episode: far more than any suite's episodes).
+_MAX_BYTES = 1 << 24
 
 
 def reachable(view, start: tuple[int, int], steps: int) -> list[tuple[int, int]]:
@@ -51,11 +56,14 @@ def oracle_bound(env: HearNavEnv, episode_seed: int) -> float:
 
 class OracleCache:
     """Oracle bounds of a suite's episodes, kept in one JSON file named by the suite's result key
-    (:meth:`Suite.result_key`), so that a changed scene, setting, code or plug-in never reuses a bound."""
+    (:meth:`Suite.result_key`), so that a changed scene, setting, code or plug-in never reuses a bound.
 
-    def __init__(self, folder: Path, key: str):
+    An unreadable or inconsistent file is reported in one line and its bounds are computed again.
+    """
+
+    def __init__(self, folder: Path, key: str, report: Callable[[str], None] = files.note):
         self.path = Path(folder) / f"oracle-{key}.json"
-        self.values: dict[str, float] = json.loads(self.path.read_text()) if self.path.exists() else {}
+        self.values: dict[str, float] = _read_values(self.path, report)
 
     def get(self, episode_seed: int) -> float | None:
         return self.values.get(str(episode_seed))
@@ -63,10 +71,27 @@ class OracleCache:
     def put(self, episode_seed: int, value: float) -> None:
         """Record a bound and rewrite the file atomically."""
         self.values[str(episode_seed)] = value
-        self.path.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(dir=self.path.parent, suffix=".tmp")
-        with os.fdopen(fd, "w") as f:
-            json.dump(self.values, f, sort_keys=True)
-            f.flush()
-            os.fsync(f.fileno())
-        os.replace(tmp, self.path)
+        text = json.dumps(self.values, sort_keys=True).encode()
+        files.atomic_write(self.path, lambda f: f.write(text), PLACE)
+
+
+def _read_values(path: Path, report: Callable[[str], None]) -> dict[str, float]:
+    """The bounds in an oracle file, or none (reported) when it is missing, unreadable or not bounds."""
+    try:
+        with open(path, "rb") as f:
+            data = f.read(_MAX_BYTES + 1)
+        if len(data) > _MAX_BYTES:
+            raise ValueError(f"over {_MAX_BYTES} bytes")
+        values = json.loads(data)
+        if not isinstance(values, dict):
+            raise ValueError(f"a JSON {type(values).__name__}, not an object")
+        for seed, value in values.items():
+            if not seed.isdigit() or isinstance(value, bool) or not isinstance(value, (int, float)):
+                raise ValueError(f"entry {short_repr(seed, 30)}: {short_repr(value, 30)} is not seed: bound")
+    except FileNotFoundError:
+        return {}
+    except Exception as exc:  # a truncated or damaged file: any failure to parse it
+        report(f"{path}: unreadable oracle file (expected a JSON object of episode seed: bound, got "
+               f"{files.reason(exc)}); recomputing")
+        return {}
+    return {seed: float(value) for seed, value in values.items()}

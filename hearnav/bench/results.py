@@ -33,6 +33,7 @@ from typing import Any
 
 import numpy as np
 
+from hearnav import files
 from hearnav.bench.keys import changed_parts
 from hearnav.errors import HearnavError, short_repr
 
@@ -53,6 +54,11 @@ _KEY_TEXT = re.compile(r"[0-9a-f]{1,64}")  # a key as written; anything else is 
 
 class ResultsError(HearnavError):
     """A result file or run folder is corrupt, or does not match the run being started."""
+
+
+#: The run folder's write errors: one line naming the folder and what to do.
+OUTPUT = files.Place("results", "choose a writable --out folder",
+                     "free some space there, or choose an --out folder on a disk with room", ResultsError)
 
 
 @dataclass
@@ -175,7 +181,7 @@ def append_row(path: str | os.PathLike, row: Mapping[str, Any] | EpisodeResult) 
     path = Path(path)
     data = encode_row(row)
     _check_tail(path)
-    with open(path, "ab") as fh:
+    with files.writing(path.parent, OUTPUT), open(path, "ab") as fh:
         fh.write(data)
         fh.flush()
         os.fsync(fh.fileno())
@@ -193,18 +199,20 @@ class ResultWriter:
 
     def __init__(self, path: str | os.PathLike):
         self.path = Path(path)
-        self.path.parent.mkdir(parents=True, exist_ok=True)
+        files.make_folder(self.path.parent, OUTPUT)
         _check_tail(self.path)
-        self._fh = open(self.path, "ab")  # unbuffered-enough: one write per row, flushed at once
+        with files.writing(self.path.parent, OUTPUT):
+            self._fh = open(self.path, "ab")  # unbuffered-enough: one write per row, flushed at once
 
     def append(self, row: Mapping[str, Any] | EpisodeResult) -> None:
         """Write one row as one line, flush and ``fsync``."""
         if self._fh is None:
             raise ResultsError(f"{self.path}: expected an open writer, got a closed one: create a new ResultWriter")
         data = encode_row(row)
-        self._fh.write(data)
-        self._fh.flush()
-        os.fsync(self._fh.fileno())
+        with files.writing(self.path.parent, OUTPUT):
+            self._fh.write(data)
+            self._fh.flush()
+            os.fsync(self._fh.fileno())
 
     def close(self) -> None:
         """Close the file (idempotent)."""
@@ -313,13 +321,13 @@ def repair(path: str | os.PathLike) -> int:
     if _parse_line(last) is not None:
         if data.endswith(b"\n"):
             return 0
-        with open(path, "ab") as fh:
+        with files.writing(path.parent, OUTPUT), open(path, "ab") as fh:
             fh.write(b"\n")
             fh.flush()
             os.fsync(fh.fileno())
         return 0
     keep = len(data) - len(last) - (1 if data.endswith(b"\n") else 0)  # where the torn line starts
-    with open(path, "r+b") as fh:
+    with files.writing(path.parent, OUTPUT), open(path, "r+b") as fh:
         fh.truncate(keep)
         fh.flush()
         os.fsync(fh.fileno())
@@ -376,20 +384,6 @@ def comparable(row: Mapping[str, Any]) -> dict:
     return strip(_plain(row))
 
 
-def _fsync_dir(directory: Path) -> None:
-    """Make a rename in ``directory`` durable (POSIX; a no-op where directories cannot be opened)."""
-    try:
-        fd = os.open(directory, os.O_RDONLY)
-    except OSError:
-        return
-    try:
-        os.fsync(fd)
-    except OSError:
-        pass
-    finally:
-        os.close(fd)
-
-
 def write_json(path: str | os.PathLike, data: Mapping[str, Any]) -> Path:
     """Write a JSON file atomically: a temporary file, ``fsync``, ``os.replace``, then ``fsync`` of the folder.
 
@@ -404,22 +398,14 @@ def write_json(path: str | os.PathLike, data: Mapping[str, Any]) -> Path:
     -------
     Path
         ``path``.
+
+    Raises
+    ------
+    ResultsError
+        In one line naming the folder, when it is read-only, full or otherwise cannot be written.
     """
-    target = Path(path)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    tmp = target.parent / f".{target.name}.{os.getpid()}.tmp"
     text = json.dumps(_plain(dict(data)), sort_keys=True, indent=2, allow_nan=False) + "\n"
-    try:
-        with open(tmp, "w", encoding="utf-8") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, target)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
-    _fsync_dir(target.parent)
-    return target
+    return files.atomic_write(path, lambda fh: fh.write(text.encode("utf-8")), OUTPUT)
 
 
 def write_manifest(directory: str | os.PathLike, manifest: Mapping[str, Any]) -> Path:
@@ -537,7 +523,7 @@ def lock_folder(directory: str | os.PathLike) -> Iterator[Path]:
     """
     path = Path(directory) / LOCK_FILE
     try:
-        fd = os.open(path, os.O_RDWR | os.O_CREAT, 0o644)
+        fd = os.open(path, os.O_RDWR | os.O_CREAT, 0o666)  # the umask decides
     except OSError as exc:
         raise ResultsError(f"{path}: expected to create the run folder's lock file, got {exc.strerror}: "
                            f"choose a writable --out folder") from None

@@ -14,6 +14,7 @@ from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+from hearnav import files
 from hearnav.bench import results
 from hearnav.bench.keys import code_version
 from hearnav.errors import ConfigError
@@ -116,7 +117,7 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
     parts = suite.key_parts()
     key = result_key(parts)
     out = Path(out)
-    out.mkdir(parents=True, exist_ok=True)
+    files.make_folder(out, results.OUTPUT)  # a read-only or full --out is one line naming it
     with results.lock_folder(out):
         results.check_manifest(out, {"suite": suite.name, "suite_hash": suite.digest(), "code_version": code_version(),
                                      "run_key": key, "key_parts": parts})

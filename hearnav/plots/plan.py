@@ -7,8 +7,13 @@ from pathlib import Path
 from matplotlib.figure import Figure
 from matplotlib.patches import Polygon, Rectangle
 
+from hearnav import files
+from hearnav.errors import ConfigError
 from hearnav.scene.grid import Grid
 from hearnav.scene.model import Scene
+
+_PLACE = files.Place("the plan", "choose a writable --out path",
+                     "free some space there, or choose an --out path on a disk with room", ConfigError)
 
 
 def draw_plan(ax, scene: Scene, grid: Grid | None = None, label_spots: bool = True, show_spots: bool = True) -> None:
@@ -49,6 +54,7 @@ def save_plan(scene: Scene, grid: Grid | None, path: str | Path) -> Path:
                  f"{grid.n_cells if grid else 0} cells, {len(scene.spots)} spots", fontsize=9)
     ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1), fontsize=7, frameon=False)
     fig.tight_layout()
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fig.savefig(path, dpi=130)
+    with files.writing(path.parent, _PLACE):
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fig.savefig(path, dpi=130)
     return path

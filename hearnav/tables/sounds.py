@@ -58,7 +58,7 @@ def dry_signal(category: str, pool: str, voice: int, take: int, n_samples: int, 
     if built:
         bound_folder(sounds_dir(), SOUNDS_BYTES)
     else:
-        with contextlib.suppress(FileNotFoundError):
+        with contextlib.suppress(OSError):  # removed meanwhile, or a read-only cache: the clip is still good
             os.utime(folder)  # recently used: removed last
     return signal
 

@@ -3,23 +3,21 @@
 A part is a folder in :func:`tables_dir` holding one uncompressed ``.npy`` file per array and ``manifest.json``
 (the part's key, a few scalars, and each array's dtype, shape and CRC-32). It is written into a temporary folder
 beside its place and renamed into it, so a reader never sees half a part; builders of the same part take a lock
-so that one builds while the others wait. Opening checks that the manifest names the expected key and arrays,
-that every file holds an array of the manifest's dtype and shape, and the CRC-32 of every array's bytes; a part
-that fails is reported in one line and rebuilt. Arrays open with ``np.load(mmap_mode="r")``: every process maps
-the same pages of the page cache, and no process writes to them.
+(:func:`hearnav.files.build_lock`) so that one builds while the others wait, and a reader takes none, so a valid
+store in a read-only folder opens. Opening checks that the manifest names the expected key and arrays, that
+every file's .npy header declares the manifest's dtype and shape (before anything is mapped) and the CRC-32 of
+every array's bytes; a part that fails in any way is reported in one line and rebuilt. Arrays open as read-only
+memory maps: every process maps the same pages of the page cache, and no process writes to them.
 """
 
 from __future__ import annotations
 
-import contextlib
-import fcntl
+import errno
 import hashlib
 import inspect
 import json
 import os
 import shutil
-import sys
-import tempfile
 import zlib
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -27,6 +25,7 @@ from pathlib import Path
 
 import numpy as np
 
+from hearnav import files, npyfile
 from hearnav.acoustics.cache import cache_dir
 
 #: Layout version of a part folder (bumped when the layout or the manifest changes).
@@ -34,6 +33,11 @@ STORE_FORMAT = 1
 #: Parts a process keeps open at once (each a few memory maps); the oldest opened is dropped beyond it.
 MAX_OPEN = 64
 _MANIFEST = "manifest.json"
+PLACE = files.cache_place("the tables store")
+# Most bytes of a manifest (a few scalars and one line per array: a few kilobytes at most).
+_MANIFEST_BYTES = 1 << 20
+# errno values of a file system that cannot reserve space ahead (posix_fallocate is then skipped)
+_NO_FALLOCATE = (errno.EOPNOTSUPP, errno.EINVAL, errno.ENOSYS)
 # The one piece of module state: the parts this process has opened and checked, by folder.
 _open: dict[Path, Part] = {}
 
@@ -44,8 +48,8 @@ def tables_dir() -> Path:
 
 
 def report_line(message: str) -> None:
-    """The default report: one line on standard error."""
-    print(f"hearnav: {message}", file=sys.stderr)
+    """The default report: one ``hearnav: note:`` line on standard error."""
+    files.note(message)
 
 
 def digest(*parts: object) -> str:
@@ -84,11 +88,18 @@ class PartWriter:
         self._arrays: dict[str, np.ndarray] = {}
 
     def empty(self, name: str, shape: tuple[int, ...], dtype: np.dtype | type) -> np.ndarray:
-        """A writable array of its part, backed by its file (so a large one never sits in private memory)."""
+        """A writable array of its part, backed by its file (so a large one never sits in private memory).
+
+        The file's blocks are reserved before the map is returned, so a full disk is an error here rather than
+        a SIGBUS when the map is written.
+        """
         if 0 in shape:
             a = np.zeros(shape, dtype)
         else:
-            a = np.lib.format.open_memmap(self.folder / f"{name}.npy", mode="w+", dtype=dtype, shape=shape)
+            path = self.folder / f"{name}.npy"
+            with files.writing(self.folder.parent, PLACE):
+                a = np.lib.format.open_memmap(path, mode="w+", dtype=dtype, shape=shape)
+                _reserve(path)
         self._arrays[name] = a
         return a
 
@@ -99,6 +110,10 @@ class PartWriter:
 
     def finish(self, key: str) -> None:
         """Flush every array to disk and write the manifest last."""
+        with files.writing(self.folder.parent, PLACE):
+            self._finish(key)
+
+    def _finish(self, key: str) -> None:
         entries = {}
         for name, a in self._arrays.items():
             path = self.folder / f"{name}.npy"
@@ -122,6 +137,18 @@ def _crc(a: np.ndarray) -> int:
     return zlib.crc32(np.ascontiguousarray(a).reshape(-1).view(np.uint8))
 
 
+def _reserve(path: Path) -> None:
+    """Allocate a file's blocks (posix_fallocate) where the file system can."""
+    fd = os.open(path, os.O_RDWR)
+    try:
+        os.posix_fallocate(fd, 0, os.fstat(fd).st_size)
+    except OSError as exc:
+        if exc.errno not in _NO_FALLOCATE:
+            raise
+    finally:
+        os.close(fd)
+
+
 def _fsync(path: Path) -> None:
     fd = os.open(path, os.O_RDONLY)
     try:
@@ -130,36 +157,76 @@ def _fsync(path: Path) -> None:
         os.close(fd)
 
 
-def read_part(folder: Path, key: str, names: tuple[str, ...]) -> Part:
-    """Open and check a part; raises :class:`DamagedPart` with a one-line reason."""
+def _manifest(folder: Path) -> dict:
+    path = folder / _MANIFEST
     try:
-        manifest = json.loads((folder / _MANIFEST).read_text())
+        with open(path, "rb") as f:
+            text = f.read(_MANIFEST_BYTES + 1)
     except FileNotFoundError:
         raise DamagedPart(f"{folder}: no {_MANIFEST} (expected a complete part)") from None
-    except (OSError, ValueError) as exc:
-        raise DamagedPart(f"{folder}: unreadable {_MANIFEST} ({type(exc).__name__}: {exc})") from None
+    except OSError as exc:
+        raise DamagedPart(f"{folder}: unreadable {_MANIFEST} ({files.reason(exc)})") from None
+    if len(text) > _MANIFEST_BYTES:
+        raise DamagedPart(f"{folder}: {_MANIFEST} over {_MANIFEST_BYTES} bytes (expected a small JSON object)")
+    try:
+        manifest = json.loads(text)
+    except Exception as exc:  # ValueError, UnicodeDecodeError, RecursionError on deep nesting, ...
+        raise DamagedPart(f"{folder}: unreadable {_MANIFEST} ({files.reason(exc)})") from None
+    if not isinstance(manifest, dict) or not isinstance(manifest.get("arrays", {}), dict) \
+            or not isinstance(manifest.get("scalars", {}), dict):
+        raise DamagedPart(f"{folder}: {_MANIFEST} is not a part's manifest (expected an object with arrays and "
+                          f"scalars)")
+    return manifest
+
+
+def read_part(folder: Path, key: str, names: tuple[str, ...]) -> Part:
+    """Open and check a part; raises :class:`DamagedPart` with a one-line reason."""
+    manifest = _manifest(folder)
     if manifest.get("format") != STORE_FORMAT or manifest.get("key") != key:
-        raise DamagedPart(f"{folder}: manifest key {manifest.get('key')!r} (format {manifest.get('format')}), "
-                          f"expected {key!r} (format {STORE_FORMAT})")
+        raise DamagedPart(f"{folder}: manifest key {str(manifest.get('key'))[:40]!r} "
+                          f"(format {str(manifest.get('format'))[:8]}), expected {key!r} (format {STORE_FORMAT})")
     entries = manifest.get("arrays", {})
     missing = sorted(set(names) - set(entries))
     if missing:
         raise DamagedPart(f"{folder}: manifest lacks arrays {missing}")
     arrays = {}
     for name, entry in entries.items():
-        arrays[name] = _read_array(folder / f"{name}.npy", entry)
+        arrays[name] = _read_array(folder / f"{name}.npy", _entry(folder, name, entry))
     return Part(arrays, manifest.get("scalars", {}))
 
 
-def _read_array(path: Path, entry: dict) -> np.ndarray:
-    shape = tuple(entry["shape"])
+def _entry(folder: Path, name: str, entry: object) -> tuple[str, tuple[int, ...], int]:
+    """(dtype str, shape, CRC-32) of a manifest's array entry."""
     try:
-        a = np.load(path, mmap_mode="r" if 0 not in shape else None, allow_pickle=False)
-    except (OSError, ValueError, EOFError) as exc:
-        raise DamagedPart(f"{path}: unreadable array ({type(exc).__name__}: {exc})") from None
-    if a.dtype.str != entry["dtype"] or a.shape != shape:
-        raise DamagedPart(f"{path}: {a.dtype.str} array of shape {a.shape}, expected {entry['dtype']} of shape {shape}")
-    if _crc(a) != entry["crc32"]:
+        dtype, shape, crc = entry["dtype"], tuple(entry["shape"]), entry["crc32"]
+        if not (isinstance(dtype, str) and isinstance(crc, int) and all(isinstance(n, int) and n >= 0 for n in shape)):
+            raise TypeError("wrong types")
+    except Exception as exc:
+        raise DamagedPart(f"{folder}: manifest entry of {name[:40]!r} is not a dtype, shape and CRC-32 "
+                          f"({files.reason(exc, 60)})") from None
+    return dtype, shape, crc
+
+
+def _read_array(path: Path, entry: tuple[str, tuple[int, ...], int]) -> np.ndarray:
+    """The array of a part's file, mapped read-only, after its header is checked against the manifest's entry."""
+    dtype_str, shape, crc = entry
+    try:
+        with open(path, "rb") as f:
+            size = os.fstat(f.fileno()).st_size
+            dtype, declared, fortran = npyfile.read_header(f)
+            nbytes = npyfile.check_header(dtype, declared, (dtype_str, shape), size)
+            offset = f.tell()
+        if offset + nbytes != size:
+            raise npyfile.BadArray(f"expected a file of {offset + nbytes} bytes (header and data), got {size}")
+        order = "F" if fortran else "C"
+        a = np.memmap(path, dtype, "r", offset, shape, order) if nbytes else np.zeros(shape, dtype, order=order)
+    except FileNotFoundError:
+        raise
+    except npyfile.BadArray as exc:
+        raise DamagedPart(f"{path}: {exc}") from None
+    except Exception as exc:  # a read error, a failed map, ...
+        raise DamagedPart(f"{path}: unreadable array ({files.reason(exc)})") from None
+    if _crc(a) != crc:
         raise DamagedPart(f"{path}: CRC-32 mismatch (the bytes differ from those written)")
     a = a.view(np.ndarray)  # a plain view of the map: no np.memmap overhead on every operation
     a.flags.writeable = False
@@ -182,7 +249,7 @@ def open_part(folder: Path, key: str, names: tuple[str, ...], build: Callable[[P
     part = _try_read(folder, key, names, report)
     if part is None:
         if keep:
-            with _lock(folder):
+            with files.build_lock(folder, PLACE):
                 part = _try_read(folder, key, names, None)  # another process may have built it meanwhile
                 if part is None:
                     remove_leftovers(folder)
@@ -210,25 +277,36 @@ def _try_read(folder: Path, key: str, names: tuple[str, ...], report: Callable[[
 
 
 def _build(folder: Path, key: str, names: tuple[str, ...], build: Callable[[PartWriter], None]) -> Part:
-    folder.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{folder.name}.", suffix=".tmp", dir=folder.parent))
+    files.make_folder(folder.parent, PLACE)
+    files.remove_stale_tmp(folder.parent)
+    tmp = files.temp_name(folder)
+    with files.writing(folder.parent, PLACE):
+        os.mkdir(tmp, 0o777)  # the umask decides (mkdtemp would make 0o700, unreadable to a shared cache's group)
     try:
         writer = PartWriter(tmp)
         build(writer)
         writer.finish(key)
-        try:
-            os.rename(tmp, folder)  # fails while a (damaged, or another builder's) part is in place
-        except OSError:
-            if _try_read(folder, key, names, None) is None:
-                remove(folder)
-                os.rename(tmp, folder)
-            else:  # another builder of a clip came first
-                remove(tmp)
-        _fsync(folder.parent)
+        with files.writing(folder.parent, PLACE):
+            _place(tmp, folder, key, names)
     except BaseException:
         remove(tmp)
         raise
+    files.fsync_folder(folder.parent)
     return read_part(folder, key, names)
+
+
+def _place(tmp: Path, folder: Path, key: str, names: tuple[str, ...]) -> None:
+    """Rename a built part into place, unless another builder's valid part is already there."""
+    try:
+        os.rename(tmp, folder)  # fails while a (damaged, or another builder's) part is in place
+    except OSError as exc:
+        if exc.errno not in (errno.EEXIST, errno.ENOTEMPTY):
+            raise
+        if _try_read(folder, key, names, None) is None:
+            remove(folder)
+            os.rename(tmp, folder)
+        else:  # another builder of a clip came first
+            remove(tmp)
 
 
 def remove_leftovers(folder: Path) -> None:
@@ -239,23 +317,12 @@ def remove_leftovers(folder: Path) -> None:
 
 def remove(folder: Path) -> None:
     """Remove a part folder: renamed away first, so no reader sees it half deleted."""
-    trash = folder.with_name(f".{folder.name}.{os.getpid()}.trash")
+    trash = files.temp_name(folder, ".trash")
     try:
         os.rename(folder, trash)
     except FileNotFoundError:
         return
     shutil.rmtree(trash, ignore_errors=True)
-
-
-@contextlib.contextmanager
-def _lock(folder: Path):
-    folder.parent.mkdir(parents=True, exist_ok=True)
-    with open(folder.with_name(folder.name + ".lock"), "a+") as lock:
-        fcntl.flock(lock, fcntl.LOCK_EX)
-        try:
-            yield
-        finally:
-            fcntl.flock(lock, fcntl.LOCK_UN)
 
 
 def forget_open() -> None:

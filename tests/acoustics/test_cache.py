@@ -140,7 +140,7 @@ def test_truncated_file_is_unreadable(built):
 def test_empty_file_is_unreadable(built):
     _, path, key = built
     path.write_bytes(b"")
-    with pytest.raises(CacheError, match=r"unreadable cache file \(expected a complete \.npz, got EOFError"):
+    with pytest.raises(CacheError, match=r"unreadable cache file \(expected a complete \.npz, got BadZipFile"):
         cache.load(path, key)
 
 
@@ -182,6 +182,7 @@ def test_a_file_lacking_a_field_is_refused(built, tmp_path):
     # a consistent checksum over what is left, so that only the missing field is wrong
     meta = json.loads(str(arrays["meta"]))
     meta["checksum"] = cache._checksum({k: v for k, v in arrays.items() if k != "meta"})
+    del meta["arrays"]["spot_names"]
     arrays["meta"] = np.asarray(json.dumps(meta))
     path = tmp_path / "partial.npz"
     with open(path, "wb") as f:
@@ -247,7 +248,7 @@ def test_failed_save_keeps_the_old_file_and_no_temporary(built, monkeypatch):
         cache.save(altered, path, key)
     assert path.read_bytes() == before
     assert list(path.parent.glob("*.tmp")) == []
-    assert sorted(p.suffix for p in path.parent.iterdir()) == [".lock", ".npz"]
+    assert sorted(p.name for p in path.parent.iterdir()) == [path.name]  # no temporary, no lock file
     monkeypatch.undo()
     assert_same_responses(cache.load(path, key), responses)
 

@@ -145,5 +145,5 @@ def test_a_damaged_spectra_file_is_rebuilt_with_one_line(scene, capsys):
     capsys.readouterr()
     again = response_spectra(scene, SETTINGS, WINDOW)
     err = capsys.readouterr().err
-    assert err == f"hearnav: {folder / 'spectra.npy'}: CRC-32 mismatch (the bytes differ from those written); rebuilding\n"
+    assert err == f"hearnav: note: {folder / 'spectra.npy'}: CRC-32 mismatch (the bytes differ from those written); rebuilding\n"
     np.testing.assert_array_equal(again.spectra[2], first)

@@ -72,7 +72,7 @@ def test_a_damaged_clip_is_rebuilt(counted, capsys):
     capsys.readouterr()
     np.testing.assert_array_equal(clips.dry_signal("noise", "seen", 0, 3, N, FS), want)
     assert len(counted) == 2
-    assert capsys.readouterr().err.startswith(f"hearnav: {folder / 'signal.npy'}: CRC-32 mismatch")
+    assert capsys.readouterr().err.startswith(f"hearnav: note: {folder / 'signal.npy'}: CRC-32 mismatch")
 
 
 def test_the_folder_keeps_the_most_recently_used_clips_within_its_bound(counted, monkeypatch):

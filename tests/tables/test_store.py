@@ -104,7 +104,7 @@ def _damage_bytes(folder):
 def _truncate(folder):
     path = folder / "b.npy"
     path.write_bytes(path.read_bytes()[:-8])
-    return f"{path}: unreadable array (ValueError: "
+    return f"{path}: expected a file of 168 bytes (header and data), got 160; rebuilding"
 
 
 def _lose_manifest(folder):
@@ -145,7 +145,7 @@ def test_a_failed_build_leaves_no_part_and_no_temporary_folder():
 
     with pytest.raises(RuntimeError, match="boom"):
         open_it(failing)
-    assert list(store.tables_dir().iterdir()) == [store.tables_dir() / "part.lock"]
+    assert list(store.tables_dir().iterdir()) == []  # no part, no temporary folder, no lock file
 
 
 def test_a_crashed_build_s_leftovers_are_removed_by_the_next_build():
