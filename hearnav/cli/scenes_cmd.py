@@ -155,8 +155,7 @@ def run_build(args) -> int:
         t0 = time.perf_counter()
         with tqdm(total=grid.n_cells, desc=f"{scene.name}", unit="cell", file=sys.stderr,
                   disable=None) as bar:
-            resp = load_or_build(scene, settings, grid, progress=bar.update,
-                                 report=lambda msg: print(f"hearnav: {msg}", file=sys.stderr))
+            resp = load_or_build(scene, settings, grid, progress=bar.update)
         seconds = time.perf_counter() - t0
         path = cache_path(scene, settings)
         print(f"{scene.name}: {grid.n_cells} cells x {settings.n_headings} headings x {len(scene.spots)} spots, "
