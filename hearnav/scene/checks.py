@@ -13,12 +13,11 @@ from hearnav import sounds
 from hearnav.errors import did_you_mean
 from hearnav.scene import format as fmt
 from hearnav.scene import materials as mats
+from hearnav.scene.limits import SPACING_RANGE, check_limits
 from hearnav.scene.model import SOLID_GAP, Scene, SolidObstacle, SourceSpot, counter_clockwise
 
 #: A source spot must be at least this far (m) from every surface.
 SPOT_CLEARANCE = 0.3
-#: Allowed grid spacing in metres.
-SPACING_RANGE = (0.1, 2.0)
 # Raster step (m) for the check that sound can travel through air from a spot to the listener.
 _AIR_STEP = 0.05
 
@@ -107,6 +106,11 @@ def _check_heights(spec: fmt.SceneSpec, problems: Problems) -> bool:
     lo, hi = SPACING_RANGE
     if not lo <= spec.grid.spacing <= hi:
         problems.add("grid.spacing", f"grid spacing out of range (expected {lo:g} to {hi:g} m, got {spec.grid.spacing:g})")
+        ok = False
+    x0, y0, x1, y1 = box = spec.grid.start_region.box
+    if not (x0 < x1 and y0 < y1):
+        problems.add("grid.start_region.box", f"start_region.box must be [xmin, ymin, xmax, ymax] with xmin < xmax and "
+                                              f"ymin < ymax (got {[float(v) for v in box]}); swap the corners")
         ok = False
     return ok
 
@@ -255,10 +259,28 @@ def check_audible(scene: Scene, grid, problems: Problems) -> None:
                                         f"full-height obstacles); add a doorway or move the spot")
 
 
-def check_scene(spec: fmt.SceneSpec, text: str) -> tuple[Scene | None, Problems]:
-    """Check a structurally valid spec; return the scene (None on any problem) and the problems."""
+def check_file_name(name: str, stem: str, problems: Problems) -> None:
+    """A scene file must be named after its scene, and neither may take the generator's prefix."""
+    prefix = fmt.RESERVED_PREFIX
+    if name.startswith(prefix):
+        problems.add("name", f"name {name!r} takes the prefix {prefix!r} reserved for generated scenes (expected a "
+                             f"name not starting with {prefix!r}); rename the scene and its file")
+    elif name != stem:
+        problems.add("name", f"scene name does not match the file name (expected {stem!r}, got {name!r}); rename the "
+                             f"file or the scene")
+
+
+def check_scene(spec: fmt.SceneSpec, text: str, stem: str | None = None) -> tuple[Scene | None, Problems]:
+    """Check a structurally valid spec; return the scene (None on any problem) and the problems.
+
+    ``stem`` is the file name without ``.yaml`` for a scene read from a file (see :func:`check_file_name`).
+    """
     problems = Problems()
+    if stem is not None:
+        check_file_name(spec.name, stem, problems)
     _check_heights(spec, problems)
+    if not check_limits(spec, problems):
+        return None, problems  # no geometry on values beyond the bounds: it could run for minutes
     outline = closed_polygon(spec.outline, "outline", problems)
     room = shapely.Polygon(outline) if outline is not None else None
     walls = checked_material(spec.materials.walls, "materials.walls", problems)
