@@ -151,7 +151,9 @@ def _checked_obstacles(spec: fmt.SceneSpec, room: shapely.Polygon | None, proble
             problems.add(path, f"obstacle {ob.name!r} cuts a wall (expected it wholly inside the outline, got "
                                f"{shape.difference(room).area:.3g} m^2 outside); move or shrink it")
             continue
-        for other_name, other in shapes:
+        touching = shapely.intersects([other for _, other in shapes], shape) if shapes else []
+        for i in np.flatnonzero(touching):  # the cheap test first: an area needs a shared point
+            other_name, other = shapes[i]
             if shape.intersection(other).area > 1e-9:
                 problems.add(path, f"obstacle {ob.name!r} overlaps obstacle {other_name!r} (expected separate solids); "
                                    f"merge them into one polygon or move one")
@@ -167,15 +169,17 @@ def _checked_obstacles(spec: fmt.SceneSpec, room: shapely.Polygon | None, proble
     return solids
 
 
-def _spot_clearance(xyz: np.ndarray, room: shapely.Polygon, solids: list[SolidObstacle], ceiling: float) -> float:
-    """Distance (m) from a point to the nearest surface: walls, floor, ceiling, obstacle faces."""
+def _spot_clearance(xyz: np.ndarray, room: shapely.Polygon, footprints: np.ndarray, tops: np.ndarray,
+                    ceiling: float) -> float:
+    """Distance (m) from a point to the nearest surface: walls, floor, ceiling, obstacle faces.
+
+    ``footprints`` are the obstacles' plan polygons and ``tops`` their heights (m), as arrays.
+    """
     p2 = shapely.Point(xyz[:2])
     d = min(room.exterior.distance(p2), xyz[2], ceiling - xyz[2])
-    for ob in solids:
-        shape = shapely.Polygon(ob.polygon)
-        horiz = 0.0 if shape.contains(p2) else shape.distance(p2)
-        vert = max(0.0, xyz[2] - ob.height)
-        d = min(d, float(np.hypot(horiz, vert)))
+    if len(footprints):
+        horiz = np.where(shapely.contains(footprints, p2), 0.0, shapely.distance(footprints, p2))
+        d = min(d, float(np.min(np.hypot(horiz, np.maximum(0.0, xyz[2] - tops)))))
     return float(d)
 
 
@@ -192,6 +196,8 @@ def _checked_spots(spec: fmt.SceneSpec, room: shapely.Polygon | None, solids: li
                    problems: Problems) -> list[SourceSpot]:
     spots: list[SourceSpot] = []
     names: set[str] = set()
+    footprints = np.array([shapely.Polygon(ob.polygon) for ob in solids], dtype=object)
+    tops = np.array([ob.height for ob in solids], dtype=float)
     for k, sp in enumerate(spec.spots):
         path = f"spots[{k}]"
         _check_unique("spot", sp.name, path, names, problems)
@@ -212,12 +218,13 @@ def _checked_spots(spec: fmt.SceneSpec, room: shapely.Polygon | None, solids: li
             problems.add(f"{path}.height", f"spot height out of range (expected between 0 and {spec.ceiling_height:g} m, "
                                            f"got {sp.height:g})")
             continue
-        inside = [ob.name for ob in solids if shapely.Polygon(ob.polygon).contains(p2) and xyz[2] <= ob.height]
+        inside = [solids[i].name for i in np.flatnonzero(shapely.contains(footprints, p2) & (xyz[2] <= tops))] \
+            if len(solids) else []
         if inside:
             problems.add(f"{path}.position", f"spot {sp.name!r} is inside obstacle {inside[0]!r} (expected free air, got "
                                              f"{_fmt_pt(xyz)} at height {sp.height:g} m)")
             continue
-        clearance = _spot_clearance(xyz, room, solids, spec.ceiling_height)
+        clearance = _spot_clearance(xyz, room, footprints, tops, spec.ceiling_height)
         if clearance < SPOT_CLEARANCE - 1e-9:
             problems.add(f"{path}.position", f"spot {sp.name!r} is too close to a surface (expected at least "
                                              f"{SPOT_CLEARANCE:g} m of clearance, got {clearance:.2f} m)")

@@ -24,10 +24,11 @@ MAX_CEILING = 20.0
 MAX_COORDINATE = 10_000.0
 #: Most corners of one polygon (the outline or an obstacle's), counting the repeated last corner.
 MAX_CORNERS = 2000
-#: Most obstacles in a scene.
-MAX_OBSTACLES = 2000
+#: Most obstacles in a scene (a full 100 m hall with this many and MAX_SPOTS spots checks in a few seconds;
+#: the bundled scenes have at most 8, and the image-source model's cost grows with every face).
+MAX_OBSTACLES = 500
 #: Most source spots in a scene.
-MAX_SPOTS = 200
+MAX_SPOTS = 100
 #: Allowed grid spacing in metres.
 SPACING_RANGE = (0.1, 2.0)
 #: Most lattice points of the grid over the outline's bounding box (each becomes a cell with its own responses).
