@@ -57,7 +57,9 @@ def _type_problem(path: str, kind: str, value: Any) -> str:
     hint = ""
     if kind in ("float_type", "int_type") and isinstance(value, str):
         hint = "; write the number without quotes"
-    elif kind == "string_type" and not isinstance(value, (bytes, bytearray, list, dict)):
+    elif kind == "string_type" and isinstance(value, (bytes, bytearray)):
+        hint = "; write the text without the !!binary tag"
+    elif kind == "string_type" and not isinstance(value, (list, dict)):
         hint = "; put the text in quotes"
     return f"{path}: wrong type (expected {_EXPECTED_TYPE[kind]}, got {value_kind(value)}){hint}"
 

@@ -89,7 +89,7 @@ def _check_size(outline: np.ndarray, spacing: float, problems: Problems) -> None
         problems.add("outline", f"room too large (expected at most {MAX_EXTENT:g} m across in x and in y, got "
                                 f"{size[0]:g} x {size[1]:g} m); check the units (metres)")
     elif spacing >= SPACING_RANGE[0]:
-        nx, ny = (int(n) for n in np.floor(size / spacing) + 1)
+        nx, ny = (int(n) for n in np.floor((size - spacing / 2) / spacing) + 1)  # as grid.candidate_mask lays them
         if nx * ny > MAX_LATTICE_POINTS:
             problems.add("grid.spacing", f"grid too fine for the room (expected at most {MAX_LATTICE_POINTS} lattice "
                                          f"points, got {nx} x {ny} at {spacing:g} m); raise the spacing")
