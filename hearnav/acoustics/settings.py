@@ -16,7 +16,8 @@ RESPONSE_LEAD = 32
 class AcousticSettings(BaseModel):
     """How a scene is turned into binaural responses."""
 
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    # strict and finite: numbers are YAML numbers (ints pass as floats), not "16000" or true; true/false for flags
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True, allow_inf_nan=False)
 
     fs: int = Field(default=16000, ge=8000, le=48000, description="sample rate in Hz")
     speed_of_sound: float = Field(default=343.0, ge=300.0, le=360.0, description="m/s (343 m/s: 20 C, dry air)")

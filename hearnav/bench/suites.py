@@ -13,7 +13,7 @@ from pathlib import Path
 
 import numpy as np
 import yaml
-from pydantic import BaseModel, ConfigDict, Field, ValidationError
+from pydantic import BaseModel, ConfigDict, Field, StrictInt, StrictStr, ValidationError
 
 from hearnav import bundled
 from hearnav.env.config import EnvConfig, make_config
@@ -29,10 +29,11 @@ class Suite(BaseModel):
 
     model_config = ConfigDict(extra="forbid", frozen=True)
 
-    name: str = Field(min_length=1)
-    description: str = ""
-    episodes: int = Field(ge=1, le=100000)
-    seed: int = Field(ge=0)
+    # strict scalars: episodes: "5" or true is refused, and a !!binary name is not text
+    name: StrictStr = Field(min_length=1)
+    description: StrictStr = ""
+    episodes: StrictInt = Field(ge=1, le=100000)
+    seed: StrictInt = Field(ge=0)
     env: dict = Field(default_factory=dict)
 
     def env_config(self) -> EnvConfig:

@@ -60,18 +60,20 @@ def _eyring_mid(scene) -> float:
 
 def run_list(args) -> int:
     from hearnav.scene.grid import build_grid
-    from hearnav.scene.library import load_named, scene_names
+    from hearnav.scene.library import load_all
 
     rows = []
-    for name in scene_names(args.split):
-        scene = load_named(name)
+    scenes, failed = load_all(args.split)
+    for scene in scenes:
         grid = build_grid(scene)
-        rows.append((name, scene.split, f"{scene.floor_area:.1f}", str(grid.n_cells), str(len(scene.spots)),
+        rows.append((scene.name, scene.split, f"{scene.floor_area:.1f}", str(grid.n_cells), str(len(scene.spots)),
                      f"{_eyring_mid(scene):.2f}"))
     header = ("name", "split", "area_m2", "cells", "spots", "rt60_s")
     _print_table(header, rows)
     print("rt60_s: Eyring estimate, mean of the 500 Hz and 1 kHz bands.")
-    return 0
+    for line in failed:
+        print(f"hearnav: {line}", file=sys.stderr)
+    return 1 if failed else 0
 
 
 def _print_table(header: tuple[str, ...], rows: list[tuple[str, ...]]) -> None:

@@ -6,7 +6,8 @@ from pathlib import Path
 from typing import Literal
 
 import yaml
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
+from pydantic import (BaseModel, ConfigDict, Field, StrictFloat, StrictInt, StrictStr, ValidationError,
+                      field_validator, model_validator)
 
 from hearnav import bundled
 from hearnav.acoustics.settings import AcousticSettings
@@ -21,28 +22,30 @@ CONFIG_DIR = bundled.folder("configs") / "env"
 class EnvConfig(BaseModel):
     """Every argument of :class:`hearnav.env.HearNavEnv` (see its docstring for the meaning of each)."""
 
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    # Scalars are strict (a number is a YAML number, not "2.6" or true; text is not !!binary bytes) and finite;
+    # lists and tuples stay lax so that a YAML list fills a tuple field.
+    model_config = ConfigDict(extra="forbid", frozen=True, allow_inf_nan=False)
 
-    scenes: str | list[str] = Field(default="train", description="a split, 'procedural', or scene names")
-    procedural_pool: int = Field(default=16, ge=1, le=100000, description="generated scenes gen-0..gen-(N-1)")
-    sound_categories: list[str] = Field(
+    scenes: StrictStr | list[StrictStr] = Field(default="train", description="a split, 'procedural', or scene names")
+    procedural_pool: StrictInt = Field(default=16, ge=1, le=100000, description="generated scenes gen-0..gen-(N-1)")
+    sound_categories: list[StrictStr] = Field(
         default_factory=lambda: list(BUILTIN_NAMES), min_length=1,
         description="registered categories episodes draw sounds from (default: the five built-ins)")
-    target_category: str | list[str] | None = Field(
+    target_category: StrictStr | list[StrictStr] | None = Field(
         default=None, description="category (or list of categories) of the target sound; None: any")
-    distractors: tuple[int, int] = Field(default=(1, 3), description="min and max number of distractors")
+    distractors: tuple[StrictInt, StrictInt] = Field(default=(1, 3), description="min and max number of distractors")
     sound_pool: Literal["seen", "unseen"] = "seen"
-    distractor_level_db: tuple[float, float] = Field(default=(-6.0, 6.0),
+    distractor_level_db: tuple[StrictFloat, StrictFloat] = Field(default=(-6.0, 6.0),
                                                      description="distractor level relative to the target, dB")
-    min_start_distance: float = Field(default=2.0, ge=0.0, le=50.0, description="metres from the target spot")
-    step_s: float = Field(default=0.5, ge=0.05, le=4.0, description="seconds of sound per step")
-    budget: int = Field(default=20, ge=1, le=1000, description="steps before truncation")
-    separator: str = Field(default="delay-and-sum", description="registered separator name")
-    reward_clip: float | None = Field(default=None, gt=0.0, description="clip the reward to +/- this many dB")
-    n_bands: int = Field(default=16, ge=4, le=64, description="frequency bands of the audio features")
-    n_segments: int = Field(default=4, ge=1, le=32, description="time segments of the audio features")
-    patch_size: int = Field(default=9, ge=3, le=41, description="cells per side of the egocentric map (odd)")
-    fov_deg: float = Field(default=120.0, gt=0.0, le=360.0, description="field of view for visible sources")
+    min_start_distance: StrictFloat = Field(default=2.0, ge=0.0, le=50.0, description="metres from the target spot")
+    step_s: StrictFloat = Field(default=0.5, ge=0.05, le=4.0, description="seconds of sound per step")
+    budget: StrictInt = Field(default=20, ge=1, le=1000, description="steps before truncation")
+    separator: StrictStr = Field(default="delay-and-sum", description="registered separator name")
+    reward_clip: StrictFloat | None = Field(default=None, gt=0.0, description="clip the reward to +/- this many dB")
+    n_bands: StrictInt = Field(default=16, ge=4, le=64, description="frequency bands of the audio features")
+    n_segments: StrictInt = Field(default=4, ge=1, le=32, description="time segments of the audio features")
+    patch_size: StrictInt = Field(default=9, ge=3, le=41, description="cells per side of the egocentric map (odd)")
+    fov_deg: StrictFloat = Field(default=120.0, gt=0.0, le=360.0, description="field of view for visible sources")
     acoustics: AcousticSettings = Field(default_factory=AcousticSettings)
 
     @field_validator("patch_size")

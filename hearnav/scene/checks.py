@@ -13,12 +13,11 @@ from hearnav import sounds
 from hearnav.errors import did_you_mean
 from hearnav.scene import format as fmt
 from hearnav.scene import materials as mats
+from hearnav.scene.limits import SPACING_RANGE, check_limits
 from hearnav.scene.model import SOLID_GAP, Scene, SolidObstacle, SourceSpot, counter_clockwise
 
 #: A source spot must be at least this far (m) from every surface.
 SPOT_CLEARANCE = 0.3
-#: Allowed grid spacing in metres.
-SPACING_RANGE = (0.1, 2.0)
 # Raster step (m) for the check that sound can travel through air from a spot to the listener.
 _AIR_STEP = 0.05
 
@@ -108,6 +107,11 @@ def _check_heights(spec: fmt.SceneSpec, problems: Problems) -> bool:
     if not lo <= spec.grid.spacing <= hi:
         problems.add("grid.spacing", f"grid spacing out of range (expected {lo:g} to {hi:g} m, got {spec.grid.spacing:g})")
         ok = False
+    x0, y0, x1, y1 = box = spec.grid.start_region.box
+    if not (x0 < x1 and y0 < y1):
+        problems.add("grid.start_region.box", f"start_region.box must be [xmin, ymin, xmax, ymax] with xmin < xmax and "
+                                              f"ymin < ymax (got {[float(v) for v in box]}); swap the corners")
+        ok = False
     return ok
 
 
@@ -147,7 +151,9 @@ def _checked_obstacles(spec: fmt.SceneSpec, room: shapely.Polygon | None, proble
             problems.add(path, f"obstacle {ob.name!r} cuts a wall (expected it wholly inside the outline, got "
                                f"{shape.difference(room).area:.3g} m^2 outside); move or shrink it")
             continue
-        for other_name, other in shapes:
+        touching = shapely.intersects([other for _, other in shapes], shape) if shapes else []
+        for i in np.flatnonzero(touching):  # the cheap test first: an area needs a shared point
+            other_name, other = shapes[i]
             if shape.intersection(other).area > 1e-9:
                 problems.add(path, f"obstacle {ob.name!r} overlaps obstacle {other_name!r} (expected separate solids); "
                                    f"merge them into one polygon or move one")
@@ -163,15 +169,17 @@ def _checked_obstacles(spec: fmt.SceneSpec, room: shapely.Polygon | None, proble
     return solids
 
 
-def _spot_clearance(xyz: np.ndarray, room: shapely.Polygon, solids: list[SolidObstacle], ceiling: float) -> float:
-    """Distance (m) from a point to the nearest surface: walls, floor, ceiling, obstacle faces."""
+def _spot_clearance(xyz: np.ndarray, room: shapely.Polygon, footprints: np.ndarray, tops: np.ndarray,
+                    ceiling: float) -> float:
+    """Distance (m) from a point to the nearest surface: walls, floor, ceiling, obstacle faces.
+
+    ``footprints`` are the obstacles' plan polygons and ``tops`` their heights (m), as arrays.
+    """
     p2 = shapely.Point(xyz[:2])
     d = min(room.exterior.distance(p2), xyz[2], ceiling - xyz[2])
-    for ob in solids:
-        shape = shapely.Polygon(ob.polygon)
-        horiz = 0.0 if shape.contains(p2) else shape.distance(p2)
-        vert = max(0.0, xyz[2] - ob.height)
-        d = min(d, float(np.hypot(horiz, vert)))
+    if len(footprints):
+        horiz = np.where(shapely.contains(footprints, p2), 0.0, shapely.distance(footprints, p2))
+        d = min(d, float(np.min(np.hypot(horiz, np.maximum(0.0, xyz[2] - tops)))))
     return float(d)
 
 
@@ -188,6 +196,8 @@ def _checked_spots(spec: fmt.SceneSpec, room: shapely.Polygon | None, solids: li
                    problems: Problems) -> list[SourceSpot]:
     spots: list[SourceSpot] = []
     names: set[str] = set()
+    footprints = np.array([shapely.Polygon(ob.polygon) for ob in solids], dtype=object)
+    tops = np.array([ob.height for ob in solids], dtype=float)
     for k, sp in enumerate(spec.spots):
         path = f"spots[{k}]"
         _check_unique("spot", sp.name, path, names, problems)
@@ -208,12 +218,13 @@ def _checked_spots(spec: fmt.SceneSpec, room: shapely.Polygon | None, solids: li
             problems.add(f"{path}.height", f"spot height out of range (expected between 0 and {spec.ceiling_height:g} m, "
                                            f"got {sp.height:g})")
             continue
-        inside = [ob.name for ob in solids if shapely.Polygon(ob.polygon).contains(p2) and xyz[2] <= ob.height]
+        inside = [solids[i].name for i in np.flatnonzero(shapely.contains(footprints, p2) & (xyz[2] <= tops))] \
+            if len(solids) else []
         if inside:
             problems.add(f"{path}.position", f"spot {sp.name!r} is inside obstacle {inside[0]!r} (expected free air, got "
                                              f"{_fmt_pt(xyz)} at height {sp.height:g} m)")
             continue
-        clearance = _spot_clearance(xyz, room, solids, spec.ceiling_height)
+        clearance = _spot_clearance(xyz, room, footprints, tops, spec.ceiling_height)
         if clearance < SPOT_CLEARANCE - 1e-9:
             problems.add(f"{path}.position", f"spot {sp.name!r} is too close to a surface (expected at least "
                                              f"{SPOT_CLEARANCE:g} m of clearance, got {clearance:.2f} m)")
@@ -255,10 +266,28 @@ def check_audible(scene: Scene, grid, problems: Problems) -> None:
                                         f"full-height obstacles); add a doorway or move the spot")
 
 
-def check_scene(spec: fmt.SceneSpec, text: str) -> tuple[Scene | None, Problems]:
-    """Check a structurally valid spec; return the scene (None on any problem) and the problems."""
+def check_file_name(name: str, stem: str, problems: Problems) -> None:
+    """A scene file must be named after its scene, and neither may take the generator's prefix."""
+    prefix = fmt.RESERVED_PREFIX
+    if name.startswith(prefix):
+        problems.add("name", f"name {name!r} takes the prefix {prefix!r} reserved for generated scenes (expected a "
+                             f"name not starting with {prefix!r}); rename the scene and its file")
+    elif name != stem:
+        problems.add("name", f"scene name does not match the file name (expected {stem!r}, got {name!r}); rename the "
+                             f"file or the scene")
+
+
+def check_scene(spec: fmt.SceneSpec, text: str, stem: str | None = None) -> tuple[Scene | None, Problems]:
+    """Check a structurally valid spec; return the scene (None on any problem) and the problems.
+
+    ``stem`` is the file name without ``.yaml`` for a scene read from a file (see :func:`check_file_name`).
+    """
     problems = Problems()
+    if stem is not None:
+        check_file_name(spec.name, stem, problems)
     _check_heights(spec, problems)
+    if not check_limits(spec, problems):
+        return None, problems  # no geometry on values beyond the bounds: it could run for minutes
     outline = closed_polygon(spec.outline, "outline", problems)
     room = shapely.Polygon(outline) if outline is not None else None
     walls = checked_material(spec.materials.walls, "materials.walls", problems)

@@ -8,6 +8,7 @@ from pydantic import BaseModel, ValidationError
 
 from hearnav.errors import did_you_mean, short_repr
 from hearnav.scene import format as fmt
+from hearnav.yamlfile import value_kind
 
 # The model that owns the fields found under a parent field of this name (or union tag).
 _OWNER: dict[str, type[BaseModel]] = {
@@ -45,6 +46,24 @@ def _short(value: Any) -> str:
     return short_repr(value)
 
 
+# What a strict field of each pydantic error type expects, in words.
+_EXPECTED_TYPE = {"float_type": "a number", "int_type": "a whole number", "string_type": "text",
+                  "bool_type": "true or false", "list_type": "a list", "dict_type": "a mapping",
+                  "model_type": "a mapping"}
+
+
+def _type_problem(path: str, kind: str, value: Any) -> str:
+    """``path: wrong type (expected a number, got the text '2.6'); hint``."""
+    hint = ""
+    if kind in ("float_type", "int_type") and isinstance(value, str):
+        hint = "; write the number without quotes"
+    elif kind == "string_type" and isinstance(value, (bytes, bytearray)):
+        hint = "; write the text without the !!binary tag"
+    elif kind == "string_type" and not isinstance(value, (list, dict)):
+        hint = "; put the text in quotes"
+    return f"{path}: wrong type (expected {_EXPECTED_TYPE[kind]}, got {value_kind(value)}){hint}"
+
+
 def describe(error: dict[str, Any]) -> str:
     """One line for one pydantic error."""
     loc = tuple(error["loc"])
@@ -58,8 +77,12 @@ def describe(error: dict[str, Any]) -> str:
         return f"{path}: unknown field (expected one of {', '.join(valid)}); {did_you_mean(str(loc[-1]), valid)}"
     if kind == "value_error":
         return f"{path}: {str(error['ctx']['error'])}"
+    if kind in _EXPECTED_TYPE:
+        return _type_problem(path, kind, error.get("input"))
     ctx = error.get("ctx") or {}
     got = _short(error.get("input"))
+    if kind == "finite_number":
+        return f"{path}: not a finite number (expected a finite number, got {got})"
     if kind == "literal_error":
         return f"{path}: not an allowed value (expected one of {ctx.get('expected')}, got {got})"
     if kind in ("greater_than", "greater_than_equal", "less_than", "less_than_equal"):

@@ -17,10 +17,14 @@ Point = Annotated[list[float], Field(min_length=2, max_length=2, description="[x
 Split = Literal["train", "val", "test"]
 #: The scene splits, in order: the one definition every other module uses.
 SPLITS: tuple[str, ...] = get_args(Split)
+#: Prefix of the names of generated scenes (``gen-<seed>``); no scene file may take it.
+RESERVED_PREFIX = "gen-"
 
 
 class _Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    # strict: numbers must be YAML numbers (not "2.6", not true) and text must be text (not !!binary bytes);
+    # ints still pass where floats are expected. Every number must be finite (no .nan, .inf, 1e400).
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True, allow_inf_nan=False)
 
 
 class CustomMaterial(_Strict):

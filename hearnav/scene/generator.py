@@ -19,13 +19,13 @@ import numpy as np
 import shapely
 
 from hearnav.errors import ConfigError, SceneError
-from hearnav.scene.format import SPLITS
+from hearnav.scene.format import RESERVED_PREFIX, SPLITS
 from hearnav.scene.grid import build_grid
 from hearnav.scene.loader import from_dict
 from hearnav.scene.model import Scene
 
 #: Prefix of generated scene names: ``gen-<seed>``.
-PREFIX = "gen-"
+PREFIX = RESERVED_PREFIX
 #: Attempts (derived seeds) before giving up.
 MAX_TRIES = 50
 SPACING = 0.5
@@ -339,8 +339,12 @@ def generate_scene(seed: int, split: str = "train") -> Scene:
     return _generate(seed, split)[1]
 
 
+#: Most digits of the seed in a generated scene's name (a 64-bit seed has at most 20).
+MAX_SEED_DIGITS = 20
+
+
 def parse_name(name: str) -> int | None:
-    """The seed of a generated scene name ``gen-<seed>``, else None."""
+    """The seed of a generated scene name ``gen-<seed>`` (at most :data:`MAX_SEED_DIGITS` digits), else None."""
     tail = name[len(PREFIX):] if name.startswith(PREFIX) else ""
-    return int(tail) if tail.isdigit() and tail.isascii() else None
+    return int(tail) if tail.isdigit() and tail.isascii() and len(tail) <= MAX_SEED_DIGITS else None
 

@@ -3,7 +3,9 @@
 Bundled scenes are the ``*.yaml`` files of the repository's ``scenes/`` folder (next to the ``hearnav``
 package; found in an editable install). The environment variable ``HEARNAV_SCENES`` names further folders
 (separated by ``os.pathsep``); a file there adds a scene, or replaces a bundled scene of the same name.
-Names ``gen-<seed>`` are reserved for :mod:`hearnav.scene.generator`.
+Names starting ``gen-`` are reserved for :mod:`hearnav.scene.generator` (``gen-<seed>``): a file named so is
+never loaded by name, and checking or listing it reports the clash. A file that fails to load does not stop
+the others from being listed (:func:`load_all`).
 """
 
 from __future__ import annotations
@@ -14,9 +16,9 @@ import os
 from pathlib import Path
 
 from hearnav import bundled
-from hearnav.errors import ConfigError, SceneError, unknown_name
+from hearnav.errors import ConfigError, SceneError, short_repr, unknown_name
 from hearnav.scene import generator
-from hearnav.scene.format import SPLITS, SceneSpec
+from hearnav.scene.format import RESERVED_PREFIX, SPLITS, SceneSpec
 from hearnav.scene.loader import load_scene
 from hearnav.scene.model import Scene
 
@@ -46,20 +48,46 @@ def search_dirs() -> list[Path]:
     return dirs
 
 
-def _files_by_name() -> dict[str, Path]:
+def _all_files() -> dict[str, Path]:
+    """Every scene file by file name, including those that take the reserved prefix (later folders win)."""
     found: dict[str, Path] = {}
     for folder in search_dirs():
         for path in sorted(folder.glob("*.yaml")):
-            if generator.parse_name(path.stem) is not None:
-                raise SceneError(f"{path}: (top level): file name {path.stem!r} is reserved for generated scenes "
-                                 f"(expected a name not of the form gen-<seed>); rename the file")
             found[path.stem] = path
     return found
 
 
+def _files_by_name() -> dict[str, Path]:
+    """The scene files that can be loaded by name: all but those that take the reserved prefix."""
+    return {name: path for name, path in _all_files().items() if not name.startswith(RESERVED_PREFIX)}
+
+
 def scene_files() -> list[Path]:
-    """The scene file of every named scene, sorted by name (later folders override earlier ones)."""
-    return [path for _, path in sorted(_files_by_name().items())]
+    """Every scene file, sorted by name (later folders override earlier ones); ``hearnav scenes check`` checks
+    these, so a file that takes the reserved prefix is among them and is reported."""
+    return [path for _, path in sorted(_all_files().items())]
+
+
+def load_all(split: str | None = None) -> tuple[list[Scene], list[str]]:
+    """Every scene file's scene (only ``split``'s when given), and one line for each file that fails to load.
+
+    A broken file (say a NaN coordinate in a ``HEARNAV_SCENES`` folder) must not hide the good scenes: its
+    line names the file, its first problem and how many there are.
+    """
+    if split is not None:
+        _check_split(split)
+    scenes, failed = [], []
+    for path in scene_files():
+        try:
+            scene = _load(path.stem, str(path))
+        except SceneError as exc:
+            first = exc.problems[0].removeprefix(f"{path}: ")
+            more = f" (and {len(exc.problems) - 1} more)" if len(exc.problems) > 1 else ""
+            failed.append(f"{path}: skipped: {first}{more}; run 'hearnav scenes check {path}' for every problem")
+            continue
+        if split is None or scene.split == split:
+            scenes.append(scene)
+    return scenes, failed
 
 
 def _check_split(split: str) -> None:
@@ -81,11 +109,7 @@ def _load(name: str, source: str) -> Scene:
     """Load scene ``name`` from ``source`` (a file path, or "generator")."""
     if source == "generator":
         return generator.generate_scene(generator.parse_name(name))
-    scene = load_scene(source)
-    if scene.name != name:
-        raise SceneError(f"{source}: name: scene name does not match the file name (expected {name!r}, "
-                         f"got {scene.name!r}); rename the file or the scene")
-    return scene
+    return load_scene(source)  # which checks that the scene is named after its file
 
 
 def load_named(name: str) -> Scene:
@@ -96,12 +120,25 @@ def load_named(name: str) -> Scene:
     SceneError
         For an unknown name (the message lists close or valid names) or an invalid file.
     """
-    if generator.parse_name(name) is not None:
-        return _load(name, "generator")
+    if name.startswith(RESERVED_PREFIX):
+        return _load_generated(name)
     files = _files_by_name()
     if name not in files:
         raise SceneError(unknown_name("scene", name, files) + " (generated scenes are named gen-<seed>)")
     return _load(name, str(files[name]))
+
+
+def _load_generated(name: str) -> Scene:
+    """Scene ``gen-<seed>``, unless the name is malformed or a scene file takes it."""
+    if generator.parse_name(name) is None:
+        raise SceneError(f"scene name {short_repr(name)} takes the prefix {RESERVED_PREFIX!r} of generated scenes "
+                         f"(expected {RESERVED_PREFIX}<seed> with a seed of 1 to {generator.MAX_SEED_DIGITS} digits, "
+                         f"e.g. {RESERVED_PREFIX}17)")
+    clash = _all_files().get(name)
+    if clash is not None:
+        raise SceneError(f"{clash}: name: file name {name!r} is reserved for generated scenes (expected a name not "
+                         f"starting with {RESERVED_PREFIX!r}); rename the file and its scene")
+    return _load(name, "generator")
 
 
 def clear_cache() -> None:

@@ -10,8 +10,8 @@ from hearnav.scene.library import DEFAULT_SCENE, scene_names
 from tests.conftest import shoebox_dict
 
 
-def _write(tmp_path, data, name="room.yaml"):
-    path = tmp_path / name
+def _write(tmp_path, data):
+    path = tmp_path / f"{data['name']}.yaml"  # a scene file is named after its scene
     path.write_text(yaml.safe_dump(data))
     return path
 
@@ -25,11 +25,11 @@ def test_list_prints_every_scene(capsys):
 
 
 def test_check_good_and_bad_files(tmp_path, capsys):
-    good = _write(tmp_path, shoebox_dict(), "good.yaml")
-    bad_data = shoebox_dict()
+    good = _write(tmp_path, shoebox_dict(name="good"))
+    bad_data = shoebox_dict(name="bad")
     bad_data["ceiling_height"] = -1
     bad_data["grid"]["spacing"] = 5
-    bad = _write(tmp_path, bad_data, "bad.yaml")
+    bad = _write(tmp_path, bad_data)
     assert main(["scenes", "check", str(good)]) == 0
     assert main(["scenes", "check", str(good), str(bad)]) == 1
     out = capsys.readouterr().out
