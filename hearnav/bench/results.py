@@ -45,6 +45,10 @@ class ResultsError(HearnavError):
 class EpisodeResult:
     """One policy on one episode: a row of ``DIR/episodes.jsonl`` (``status`` "ok" or "failed").
 
+    A failed row's ``error`` says why in one line: what the policy raised (``ValueError: ...``, ``policy
+    exited (SystemExit 3)``), ``timed out after 600 s`` or ``worker died (exit code 7)``; rows of the last
+    two hold no scores, since the episode never returned.
+
     Scores are SI-SDR in dB. ``normalised_gain`` is gain / (oracle bound - start score), ``None`` when the
     bound is unknown or not above the start. ``extra`` keeps fields this version does not know (rows written
     by other versions), so they survive a round trip.

@@ -57,7 +57,8 @@ def describe(exc: BaseException) -> str:
     """One line for what a policy raised: ``policy exited (SystemExit 3)`` or ``ValueError: message``."""
     if isinstance(exc, SystemExit):
         return f"policy exited (SystemExit {short_repr(exc.code)})"
-    return f"{type(exc).__name__}: {exc}".splitlines()[0][:500]
+    text = str(exc).strip()
+    return (f"{type(exc).__name__}: {text}" if text else type(exc).__name__).splitlines()[0][:500]
 
 
 def failed_result(task: Task, reason: str, privileged: bool = False) -> EpisodeResult:
