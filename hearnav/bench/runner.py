@@ -140,7 +140,7 @@ def compute_oracles(suite: Suite, folder: Path, workers: int, progress=None) -> 
     with WorkerPool(_oracle_work, _start_worker, options, min(workers, len(missing))) as pool:
         for seed, value in pool.run([[s] for s in missing]):
             if isinstance(value, Failure):
-                raise HearnavError(f"expected the oracle bound of episode seed {seed}, got none ({value.reason}); "
+                raise HearnavError(f"expected the oracle bound of episode seed {seed}, got none: {value.reason}; "
                                    f"the bounds computed so far are cached: rerun to resume")
             cache.put(seed, value)
             if progress:

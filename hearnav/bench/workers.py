@@ -39,6 +39,8 @@ _MAX_WAIT_S = 5.0
 _PARENT_CHECK_S = 0.5
 # How long a worker asked to stop may take before it is killed (seconds).
 _STOP_GRACE_S = 2.0
+# How long a worker whose pipe closed may take to finish exiting before it is killed (seconds).
+_EXIT_GRACE_S = 1.0
 
 
 @dataclass(frozen=True)
@@ -176,10 +178,11 @@ class WorkerPool:
         except OSError:  # it has just died: the next poll reaps it and fails the task
             pass
 
-    def _drop(self, worker: _Worker, kill: bool) -> int | None:
-        """Stop tracking ``worker``, killing it first if asked; its exit code."""
+    def _drop(self, worker: _Worker, grace: float = 0.0) -> int | None:
+        """Stop tracking ``worker``, killing it if it still runs after ``grace`` seconds; its exit code."""
         self._workers.remove(worker)
-        if kill and worker.process.is_alive():
+        worker.process.join(grace)
+        if worker.process.is_alive():  # stuck, or it closed its pipe and went on
             worker.process.kill()
         worker.process.join()
         worker.conn.close()
@@ -187,10 +190,11 @@ class WorkerPool:
 
     def _lost(self, worker: _Worker, reason: str | None, pending: deque) -> Iterator[tuple[Any, Failure]]:
         """A worker that timed out (``reason`` given) or died: fail its task, hand its group on."""
-        code = self._drop(worker, kill=reason is not None)
+        code = self._drop(worker, grace=0.0 if reason else _EXIT_GRACE_S)
         if not worker.ready:
-            raise HearnavError(f"expected a worker process to start, but it ended while building its environment "
-                               f"({died(code)}): check memory limits and rerun to resume")
+            raise HearnavError(f"expected a worker process to build its environment, but it ended first: "
+                               f"{died(code)}; check the memory limit (an out-of-memory kill shows as SIGKILL) "
+                               f"and rerun to resume")
         if worker.queue:
             pending.appendleft(worker.queue)
         if worker.busy:
@@ -215,7 +219,7 @@ class WorkerPool:
 
     def _assign(self, pending: deque) -> None:
         """Start workers as needed and give every idle ready worker a group."""
-        busy = sum(1 for w in self._workers if w.busy or w.queue)
+        busy = sum(1 for w in self._workers if w.busy)
         while len(self._workers) < min(self.size, busy + len(pending)):
             self._spawn()
         for worker in self._workers:
@@ -252,6 +256,5 @@ class WorkerPool:
                     pass
         end = time.monotonic() + _STOP_GRACE_S
         for worker in list(self._workers):
-            if worker.ready and not worker.busy:
-                worker.process.join(max(0.0, end - time.monotonic()))
-            self._drop(worker, kill=True)
+            idle = worker.ready and not worker.busy
+            self._drop(worker, grace=max(0.0, end - time.monotonic()) if idle else 0.0)

@@ -43,9 +43,9 @@ ATTACKS = {
 }
 
 
-def _write_suite(folder: Path) -> Path:
+def _write_suite(folder: Path, seed: int = 5) -> Path:
     path = folder / "two.yaml"
-    path.write_text(yaml.safe_dump(SUITE))
+    path.write_text(yaml.safe_dump({**SUITE, "seed": seed}))
     return path
 
 
@@ -142,3 +142,40 @@ def test_a_killed_run_leaves_no_stuck_worker_behind(tmp_path, scene_dir, env_cac
         proc.wait()
     while not _gone(worker):  # the hang guard above fails the test if it never ends
         time.sleep(0.05)
+
+
+# The same machinery runs the oracle bounds, which are our code: there a dead worker stops the run in one line.
+
+@pytest.mark.timeout(60)
+def test_a_worker_killed_during_the_oracle_bounds_stops_the_run_in_one_line(tmp_path, monkeypatch, capsys):
+    from hearnav.bench import runner
+
+    # forked workers inherit the patch: the bound's computation ends its process as the OOM killer would
+    monkeypatch.setattr(runner, "oracle_bound", lambda env, seed: os.kill(os.getpid(), signal.SIGKILL))
+    out = tmp_path / "run"
+    assert _bench(_write_suite(tmp_path, seed=1234), out, "still") == 2  # a seed no other test caches bounds of
+    err = capsys.readouterr().err.splitlines()
+    assert len(err) == 1 and err[0].startswith("hearnav: error: expected the oracle bound of episode seed ")
+    assert err[0].endswith(", got none: worker died (killed by SIGKILL); the bounds computed so far are cached: "
+                           "rerun to resume")
+    assert not (out / "episodes.jsonl").exists()
+
+
+@pytest.mark.timeout(60)
+def test_a_worker_that_cannot_build_its_environment_stops_the_run():
+    from hearnav.bench.workers import WorkerPool
+    from hearnav.errors import ConfigError, HearnavError
+
+    def refuse(options):
+        raise ConfigError("expected a scene, got none")
+
+    with WorkerPool(lambda state, item: item, refuse, None, 1) as pool, pytest.raises(ConfigError) as info:
+        list(pool.run([[1]]))
+    assert str(info.value) == "expected a scene, got none"  # raised again in the caller, unchanged
+    with WorkerPool(lambda state, item: item, lambda options: os._exit(5), None, 1) as pool, \
+            pytest.raises(HearnavError) as info:
+        list(pool.run([[1]]))
+    assert str(info.value) == ("expected a worker process to build its environment, but it ended first: worker died "
+                               "(exit code 5); check the memory limit (an out-of-memory kill shows as SIGKILL) and "
+                               "rerun to resume")
+    assert multiprocessing.active_children() == []
