@@ -57,7 +57,10 @@ def describe(exc: BaseException) -> str:
     """One line for what a policy raised: ``policy exited (SystemExit 3)`` or ``ValueError: message``."""
     if isinstance(exc, SystemExit):
         return f"policy exited (SystemExit {short_repr(exc.code)})"
-    text = str(exc).strip()
+    try:
+        text = str(exc).strip()
+    except BaseException as inner:  # a policy's exception may fail even to become text
+        text = f"(its message could not be shown: str() raised {type(inner).__name__})"
     return (f"{type(exc).__name__}: {text}" if text else type(exc).__name__).splitlines()[0][:500]
 
 

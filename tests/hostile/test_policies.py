@@ -40,6 +40,7 @@ ATTACKS = {
     "sleeps.py:Sleeps": "timed out after 2 s",
     "raises.py:Raises": "ValueError: no idea where to go",
     "interrupts.py:Interrupts": "KeyboardInterrupt",
+    "unprintable.py:RaisesUnprintable": "Unprintable: (its message could not be shown: str() raised RuntimeError)",
 }
 
 
