@@ -10,8 +10,9 @@ out, so the tables they map stay open.
 Tasks come in groups (the tasks of one episode): a group goes to one worker, one task after the other, so the
 worker's environment generates the episode's sounds once for all of them.
 
-A worker ignores SIGINT (Ctrl-C stops the calling process, which then kills its workers) and ends itself
-within a second of its parent's death, even while a task is stuck, so a killed run leaves no process behind.
+A worker ignores SIGINT (Ctrl-C stops the calling process, which then kills its workers) and ends when its
+parent dies (at once on Linux, else within a second), even while a task is stuck, so a killed run leaves no
+process behind.
 """
 
 from __future__ import annotations
@@ -21,6 +22,7 @@ import multiprocessing as mp
 import os
 import pickle
 import signal
+import sys
 import threading
 import time
 import traceback
@@ -35,6 +37,8 @@ from hearnav.errors import HearnavError
 # Longest single wait of the calling process, so that no select() gets a huge timeout and deadlines are
 # checked at least this often (seconds).
 _MAX_WAIT_S = 5.0
+# prctl(2) option: the signal a process gets when its parent dies (linux/prctl.h).
+_PR_SET_PDEATHSIG = 1
 # How often a worker checks that its parent is still alive (seconds).
 _PARENT_CHECK_S = 0.5
 # How long a worker asked to stop may take before it is killed (seconds).
@@ -79,6 +83,19 @@ def _portable(exc: BaseException) -> tuple[BaseException, str]:
     return exc, text
 
 
+def _die_with_parent() -> None:
+    """On Linux, ask the kernel to SIGKILL this process when its parent dies (prctl PR_SET_PDEATHSIG, see
+    prctl(2)): it works even while a policy holds the interpreter lock. Elsewhere :func:`_watch_parent` alone."""
+    if not sys.platform.startswith("linux"):
+        return
+    try:
+        import ctypes
+
+        ctypes.CDLL(None, use_errno=True).prctl(_PR_SET_PDEATHSIG, signal.SIGKILL, 0, 0, 0)
+    except (OSError, AttributeError, TypeError):
+        pass
+
+
 def _watch_parent(parent: int) -> None:
     """End this process once its parent is gone (the process is then adopted by another)."""
     while os.getppid() == parent:
@@ -90,6 +107,7 @@ def _serve(conn: Connection, setup: Callable[[Any], Any], options: Any, fn: Call
            parent: int) -> None:
     """A worker's life: build the state, say "ready", then answer every task with "done" or "raise"."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    _die_with_parent()
     threading.Thread(target=_watch_parent, args=(parent,), daemon=True).start()
     try:
         state = setup(options)
