@@ -65,6 +65,10 @@ OUTPUT = files.Place("results", "choose a writable --out folder",
 class EpisodeResult:
     """One policy on one episode: a row of ``DIR/episodes.jsonl`` (``status`` "ok" or "failed").
 
+    A failed row's ``error`` says why in one line: what the policy raised (``ValueError: ...``, ``policy
+    exited (SystemExit 3)``), ``timed out after 600 s`` or ``worker died (exit code 7)``; rows of the last
+    two hold no scores, since the episode never returned.
+
     Scores are SI-SDR in dB. ``normalised_gain`` is gain / (oracle bound - start score), ``None`` when the
     bound is unknown or not above the start. ``extra`` keeps fields this version does not know (rows written
     by other versions), so they survive a round trip. ``run_key`` is the result key of the run that wrote

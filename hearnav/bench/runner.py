@@ -1,18 +1,18 @@
 """Run policies on a suite: one row per policy x episode, appended as each finishes, resumable.
 
-The main process owns the result file; workers (a process pool) run whole episodes and send rows back. Each
-worker builds its environment once, in the pool initializer; with one worker the calling process builds one
-per call. A policy that raises, returns an invalid action or NaN fails its episode, which is recorded with
-the error; the run goes on.
+The main process owns the result file; worker processes (:mod:`hearnav.bench.workers`, also when there is
+only one) run whole episodes and send rows back. Each worker builds its environment once and keeps it until it
+dies. A policy that raises, exits (``sys.exit``), returns an invalid action or NaN fails its episode, which is
+recorded with the error. A policy that ends its process (``os._exit``, a crash) or passes the episode time
+limit fails its episode too: the worker is replaced and the run goes on.
 """
 
 from __future__ import annotations
 
+import itertools
 import math
 import time
-from collections.abc import Callable, Iterator
 from dataclasses import dataclass
-from functools import partial
 from pathlib import Path
 
 import numpy as np
@@ -22,9 +22,11 @@ from hearnav.bench.policy import is_privileged
 from hearnav.bench.registry import load_policy
 from hearnav.bench.results import EpisodeResult
 from hearnav.bench.suites import Suite, policy_seed
+from hearnav.bench.workers import Failure, WorkerPool
 from hearnav.env.core import HearNavEnv
+from hearnav.errors import HearnavError, short_repr
 
-# The environment of a pool worker process, set there once by _start_worker; the calling process never sets it.
+# The environment of a worker process, set there once by _start_worker; the calling process never sets it.
 _worker_env: HearNavEnv | None = None
 
 
@@ -49,6 +51,23 @@ def _valid_action(action) -> int:
     if not math.isfinite(x) or x != int(x) or not 0 <= int(x) < 4:
         raise ValueError(f"policy returned {action!r}, expected an integer action in [0, 3]")
     return int(x)
+
+
+def describe(exc: BaseException) -> str:
+    """One line for what a policy raised: ``policy exited (SystemExit 3)`` or ``ValueError: message``."""
+    if isinstance(exc, SystemExit):
+        return f"policy exited (SystemExit {short_repr(exc.code)})"
+    try:
+        text = str(exc).strip()
+    except BaseException as inner:  # a policy's exception may fail even to become text
+        text = f"(its message could not be shown: str() raised {type(inner).__name__})"
+    return (f"{type(exc).__name__}: {text}" if text else type(exc).__name__).splitlines()[0][:500]
+
+
+def failed_result(task: Task, reason: str, privileged: bool = False) -> EpisodeResult:
+    """The row of an episode that gave no result of its own (its worker died or timed out)."""
+    return EpisodeResult(policy=task.policy, privileged=privileged, episode_index=task.index,
+                         episode_seed=task.seed, oracle_si_sdr_db=task.oracle, status="failed", error=reason)
 
 
 def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult:
@@ -80,8 +99,8 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult
             best = max(best, info["si_sdr_db"])
             if audio is not None:
                 audio.append(env.unwrapped.privileged.last_window())
-    except Exception as exc:  # the policy's fault: record it, never crash the run
-        result.status, result.error = "failed", f"{type(exc).__name__}: {exc}".splitlines()[0][:500]
+    except BaseException as exc:  # the policy's fault (workers ignore SIGINT): record it, never end the run
+        result.status, result.error = "failed", describe(exc)
     final = info["si_sdr_db"]
     gain = final - start
     span = None if task.oracle is None else task.oracle - start
@@ -98,12 +117,22 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult
 
 
 def _work(env: HearNavEnv, task: Task) -> EpisodeResult:
-    name, policy = load_policy(task.policy)
+    try:
+        name, policy = load_policy(task.policy)
+    except BaseException as exc:  # it loaded in the calling process; here it failed: this episode fails
+        return failed_result(task, f"making the policy failed ({describe(exc)})")
     return run_episode(env, name, policy, task)
 
 
-def _oracle_work(env: HearNavEnv, seed: int) -> tuple[int, float]:
-    return seed, oracle_bound(env, seed)
+def _oracle_work(env: HearNavEnv, seed: int) -> float:
+    return oracle_bound(env, seed)
+
+
+def _start_worker(options: dict) -> HearNavEnv:
+    """Build this worker process's environment, once."""
+    global _worker_env
+    _worker_env = HearNavEnv(**options)
+    return _worker_env
 
 
 def compute_oracles(suite: Suite, folder: Path, workers: int, progress=None) -> dict[int, float]:
@@ -111,41 +140,26 @@ def compute_oracles(suite: Suite, folder: Path, workers: int, progress=None) -> 
     cache = OracleCache(folder, suite.result_key())
     options = suite.env_config().model_dump()
     missing = [s for s in suite.episode_seeds() if cache.get(s) is None]
-    for seed, value in _map(_oracle_work, missing, options, workers):
-        cache.put(seed, value)
-        if progress:
-            progress()
+    with WorkerPool(_oracle_work, _start_worker, options, min(workers, len(missing))) as pool:
+        for seed, value in pool.run([[s] for s in missing]):
+            if isinstance(value, Failure):
+                raise HearnavError(f"expected the oracle bound of episode seed {seed}, got none: {value.reason}; "
+                                   f"the bounds computed so far are cached: rerun to resume")
+            cache.put(seed, value)
+            if progress:
+                progress()
     return {s: cache.get(s) for s in suite.episode_seeds()}
 
 
-def _start_worker(options: dict) -> None:
-    """Pool initializer: build this worker process's environment, once."""
-    global _worker_env
-    _worker_env = HearNavEnv(**options)
-
-
-def _in_worker(fn: Callable, item):
-    return fn(_worker_env, item)
-
-
-def _map(fn: Callable, items: list, options: dict, workers: int, chunksize: int = 1) -> Iterator:
-    """``fn(env, item)`` over items, in any order, in this process or a pool of ``workers``; ``env`` is built
-    from ``options`` once per process."""
-    if workers <= 1 or len(items) <= 1:
-        env = HearNavEnv(**options) if items else None
-        for item in items:
-            yield fn(env, item)
-        return
-    import multiprocessing as mp
-
-    with mp.get_context("fork").Pool(workers, initializer=_start_worker, initargs=(options,)) as pool:
-        yield from pool.imap_unordered(partial(_in_worker, fn), items, chunksize=chunksize)
-
-
-def run_tasks(suite: Suite, tasks: list[Task], workers: int):
+def run_tasks(suite: Suite, tasks: list[Task], workers: int, episode_timeout: float | None = None):
     """Results of the tasks, as they finish. Tasks of one episode go to one worker together, so the episode's
-    sounds are generated once for all policies."""
+    sounds are generated once for all policies. An episode that passes ``episode_timeout`` seconds (``None``:
+    no limit), or whose worker dies, gets a failed row (:func:`failed_result`)."""
     options = suite.env_config().model_dump()
     ordered = sorted(tasks, key=lambda t: (t.index, t.policy))
-    per_episode = max(1, len({t.policy for t in tasks}))
-    yield from _map(_work, ordered, options, workers, chunksize=per_episode)
+    groups = [list(group) for _, group in itertools.groupby(ordered, key=lambda t: t.index)]
+    privileged = {ref: is_privileged(load_policy(ref)[1]) for ref in sorted({t.policy for t in tasks})}
+    with WorkerPool(_work, _start_worker, options, min(workers, len(groups)), timeout=episode_timeout) as pool:
+        for task, result in pool.run(groups):
+            yield failed_result(task, result.reason, privileged[task.policy]) if isinstance(result, Failure) \
+                else result

@@ -9,6 +9,7 @@ follow it.
 from __future__ import annotations
 
 import dataclasses
+import math
 import os
 from collections.abc import Callable, Sequence
 from pathlib import Path
@@ -17,7 +18,7 @@ from typing import TYPE_CHECKING
 from hearnav import files
 from hearnav.bench import results
 from hearnav.bench.keys import code_version
-from hearnav.errors import ConfigError
+from hearnav.errors import ConfigError, short_repr
 
 if TYPE_CHECKING:  # imported when run, so that importing hearnav.bench stays light
     from hearnav.bench.stats import Summary
@@ -26,6 +27,10 @@ if TYPE_CHECKING:  # imported when run, so that importing hearnav.bench stays li
 # progress(stage, done, total): called with done == 0 when a stage starts, then after each episode of it
 Progress = Callable[[str, int, int], None]
 ORACLE_STAGE = "oracle bounds"
+# Seconds one episode may take before it is failed (``--episode-timeout``). An episode of the bundled suites
+# takes well under a second (0.02-0.06 s on the smoke suite, about 0.13 s per worker on the test suite), so
+# this default only stops a policy that is stuck.
+EPISODE_TIMEOUT_S = 600.0
 
 
 def _counter(progress: Progress | None, stage: str, total: int) -> Callable[[], None]:
@@ -41,6 +46,15 @@ def _counter(progress: Progress | None, stage: str, total: int) -> Callable[[], 
             progress(stage, done, total)
 
     return step
+
+
+def _check_timeout(episode_timeout: float) -> float:
+    """``episode_timeout`` as a float after checking it is a finite number of seconds above 0; raises ConfigError."""
+    value = episode_timeout
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) or value <= 0:
+        raise ConfigError(f"episode_timeout (--episode-timeout) must be a number of seconds above 0, got "
+                          f"{short_repr(value)}: use e.g. {EPISODE_TIMEOUT_S:g}, the default")
+    return float(value)
 
 
 def _check_arguments(policies: Sequence[str], workers: int, save_audio: int) -> list[str]:
@@ -75,7 +89,8 @@ def canonical_reference(reference: str) -> str:
 
 
 def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os.PathLike, workers: int = 1,
-        reference: str = "still", save_audio: int = 0, progress: Progress | None = None) -> Summary:
+        reference: str = "still", save_audio: int = 0, progress: Progress | None = None,
+        episode_timeout: float = EPISODE_TIMEOUT_S) -> Summary:
     """Run ``policies`` on every episode of ``suite`` not yet in ``out``; write rows and the summary.
 
     Parameters
@@ -95,6 +110,9 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
         Write WAVs for the first ``save_audio`` episodes of each policy.
     progress : callable, optional
         ``progress(stage, done, total)``; see :data:`Progress`.
+    episode_timeout : float
+        Seconds one policy may take on one episode; an episode that takes longer, or whose worker process dies
+        (the policy called ``os._exit``, crashed), gets a failed row and the run goes on.
 
     Returns
     -------
@@ -110,6 +128,7 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
     from hearnav.scene.library import clear_cache
 
     policies = _check_arguments(policies, workers, save_audio)
+    episode_timeout = _check_timeout(episode_timeout)
     suite = suite if isinstance(suite, Suite) else load_suite(str(suite))
     for ref in policies:  # unknown names fail here, in one line, before any work
         load_policy(ref)
@@ -133,7 +152,7 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
                  for ref in policies for k, s in enumerate(seeds) if (ref, s) not in done]
         step = _counter(progress, suite.name, len(tasks))
         with results.ResultWriter(rows_path) as writer:
-            for result in run_tasks(suite, tasks, workers):
+            for result in run_tasks(suite, tasks, workers, episode_timeout):
                 writer.append(dataclasses.replace(result, run_key=key))
                 step()
         rows = results.read_rows(rows_path)

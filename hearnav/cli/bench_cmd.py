@@ -11,6 +11,8 @@ from hearnav.cli.paths import output_folder
 
 def register(sub) -> None:
     """Add the ``bench`` subcommand."""
+    from hearnav.bench.session import EPISODE_TIMEOUT_S
+
     p = sub.add_parser("bench", help="run policies on a benchmark suite",
                        description="Run policies on a suite's fixed episodes. Writes DIR/episodes.jsonl (one row "
                                    "per policy x episode) and DIR/summary.json; rerunning resumes.")
@@ -20,6 +22,9 @@ def register(sub) -> None:
     p.add_argument("--out", type=Path, required=True, help="results folder")
     p.add_argument("--workers", type=int, default=1, help="worker processes (default 1)")
     p.add_argument("--reference", default="still", help="policy the others are compared with (default still)")
+    p.add_argument("--episode-timeout", type=float, default=EPISODE_TIMEOUT_S, metavar="SECONDS",
+                   help="fail an episode whose policy takes longer than this, or whose worker process dies, and "
+                        f"go on (default {EPISODE_TIMEOUT_S:g})")
     p.add_argument("--save-audio", type=int, default=0, metavar="K",
                    help="write WAVs for the first K episodes of each policy (peak -1 dBFS; start playback quietly)")
     p.set_defaults(run=run)
@@ -61,7 +66,7 @@ def run(args) -> int:
     bars = _Bars()
     try:
         summary = run_bench(suite, args.policy, args.out, workers=workers, reference=args.reference,
-                            save_audio=args.save_audio, progress=bars)
+                            save_audio=args.save_audio, progress=bars, episode_timeout=args.episode_timeout)
     finally:
         bars.close()
     print(format_table(summary))
