@@ -273,11 +273,22 @@ def test_a_truncated_oracle_file_is_reported_and_recomputed(tmp_path, monkeypatc
     seeds = suite.episode_seeds()
     computed: list[int] = []
 
-    def fake_map(fn, items, options, workers):  # the bound of a seed, without building the environment
-        computed.extend(items)
-        return ((s, s % 7 - 0.5) for s in items)
+    class FakePool:  # the bound of a seed, without building the environment or starting workers
+        def __init__(self, *args):
+            pass
 
-    monkeypatch.setattr(runner, "_map", fake_map)
+        def __enter__(self):
+            return self
+
+        def __exit__(self, *exc):
+            return False
+
+        def run(self, groups):
+            for (seed,) in groups:
+                computed.append(seed)
+                yield seed, seed % 7 - 0.5
+
+    monkeypatch.setattr(runner, "WorkerPool", FakePool)
     folder = tmp_path / "oracle"
     want = runner.compute_oracles(suite, folder, workers=1)
     path = OracleCache(folder, suite.result_key()).path
