@@ -66,7 +66,5 @@ def shoebox_window_energy(size: np.ndarray, source: np.ndarray, receiver: np.nda
     distances, hits = shoebox_images(size, source, receiver, stop_s * c)
     inside = distances >= start_s * c
     distances, hits = distances[inside], hits[inside]
-    with np.errstate(divide="ignore"):
-        log_refl = np.log(refl)  # (6, B); a fully absorbing wall gives -inf, so exp() gives 0 for its images
-    log_gain = np.where(hits[:, :, None] > 0, hits[:, :, None] * log_refl[None], 0.0).sum(axis=1)  # (N, B)
-    return (np.exp(log_gain) / distances[:, None] ** 2).sum(axis=0)
+    gain = np.prod(refl[None] ** hits[:, :, None], axis=1)  # (N, B); 0 ** 0 = 1 for walls never met
+    return (gain / distances[:, None] ** 2).sum(axis=0)
