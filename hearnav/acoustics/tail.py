@@ -13,6 +13,8 @@ mixed per frequency so that their coherence is sin(kd)/kd (Cook et al. 1955; mix
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 import scipy.fft as sfft
 
@@ -83,6 +85,14 @@ def tail_filters(freqs: np.ndarray, radius: float, c: float) -> np.ndarray:
     return np.stack([mid, side])[:, None, :] * (np.sqrt(band_weights(freqs)) * gain)[None]
 
 
+@functools.lru_cache(maxsize=8)
+def _grid_filters(n_fft: int, fs: int, radius: float, c: float) -> np.ndarray:
+    """:func:`tail_filters` on an ``n_fft``-point real FFT grid, float32, read-only; every chunk of a build shares it."""
+    filters = tail_filters(sfft.rfftfreq(n_fft, 1 / fs), radius, c).astype(np.float32)
+    filters.flags.writeable = False
+    return filters
+
+
 def binaural_tails(hist: np.ndarray, bin_samples: int, length: int, shift: np.ndarray, fs: int,
                    rng: np.random.Generator, air_loss: np.ndarray | None = None,
                    radius: float = HEAD_RADIUS, c: float = 343.0) -> np.ndarray:
@@ -106,7 +116,7 @@ def binaural_tails(hist: np.ndarray, bin_samples: int, length: int, shift: np.nd
     q, n_b = hist.shape[:2]
     n_fft = sfft.next_fast_len(length, real=True)
     noise = rng.standard_normal((q, 2, 2, n_fft), dtype=np.float32)  # (pair, mid/side, band parity, time)
-    filters = tail_filters(sfft.rfftfreq(n_fft, 1 / fs), radius, c).astype(np.float32)  # (2, B, F)
+    filters = _grid_filters(n_fft, fs, float(radius), float(c))  # (2, B, F)
     spec = sfft.rfft(noise, axis=-1)[:, :, np.arange(n_b) % 2, :]  # (Q, 2, B, F)
     bands = sfft.irfft(spec * filters, n_fft, axis=-1)[..., :length]  # (Q, 2, B, length)
     energy = envelope(hist, bin_samples, length, shift)  # (Q, B, length)

@@ -79,10 +79,12 @@ def test_tail_coherence_follows_the_diffuse_field(flat):
 @pytest.fixture(scope="module")
 def shoebox():
     # A uniform, purely specular shoebox (alpha 0.2 in every band, no scattering): the tail stands for the
-    # image sources above ism_order, which a plain image-source sum gives exactly.
+    # image sources above ism_order, which a plain image-source sum gives exactly. Cells 1 m apart keep every
+    # tail probe 0.5 m (the ray tracer's receiver radius) from the walls; probes closer read about 0.8 dB low.
     size, alpha = (6.0, 4.0, 3.0), 0.2
     scene = make_scene(size=size, absorption=alpha, scattering=0.0, spacing=1.0,
-                       spots=[{"name": "a", "position": [1.2, 1.1], "height": 1.4}])
+                       spots=[{"name": "a", "position": [1.2, 1.1], "height": 1.4},
+                              {"name": "b", "position": [4.6, 2.9], "height": 1.1}])
     settings = AcousticSettings(ism_order=3, max_response_s=0.2, seed=1)
     grid = build_grid(scene, settings.n_headings)
     return scene, size, alpha, settings, grid, build_responses(scene, grid, settings)
@@ -91,7 +93,8 @@ def shoebox():
 def test_shoebox_tail_energy_matches_image_sources(shoebox):
     # Allen & Berkley, JASA 65(4), 1979: the energy of the images of order > ism_order that arrive 20-150 ms
     # after emission, sum (1 - alpha)^order / r^2. The rendered tails' band energies over the same window,
-    # averaged over the ears and every cell (head's diffuse gain divided out), are within 0.5 dB in every band.
+    # averaged over the ears, cells and both spots (head's diffuse gain divided out), are within 0.5 dB in every
+    # band (seeds 1-5 give -0.4 to +0.1 dB).
     # Before the fix: +1.7 to +2.0 dB from 250 Hz up.
     scene, size, alpha, settings, grid, resp = shoebox
     c = settings.speed_of_sound
@@ -99,10 +102,11 @@ def test_shoebox_tail_energy_matches_image_sources(shoebox):
     ratios = []
     for cell in range(grid.n_cells):
         rx = np.r_[grid.centres[cell], scene.ear_height]
-        dist, hits = shoebox_images(size, scene.spots[0].position, rx, 0.15 * c)
-        order = hits.sum(axis=1)
-        late = (dist >= 0.02 * c) & (order > settings.ism_order)
-        reference = np.sum((1 - alpha) ** order[late] / dist[late] ** 2)
-        ratios.append(band_energies(resp.tail[cell, 0].astype(float)[:, a:b], FS).mean(axis=0) / reference)
+        for s, spot in enumerate(scene.spots):
+            dist, hits = shoebox_images(size, spot.position, rx, 0.15 * c)
+            order = hits.sum(axis=1)
+            late = (dist >= 0.02 * c) & (order > settings.ism_order)
+            reference = np.sum((1 - alpha) ** order[late] / dist[late] ** 2)
+            ratios.append(band_energies(resp.tail[cell, s].astype(float)[:, a:b], FS).mean(axis=0) / reference)
     error_db = 10 * np.log10(np.mean(ratios, axis=0) / _head_gain(b - a))
     np.testing.assert_array_less(np.abs(error_db), 0.5)
