@@ -110,3 +110,14 @@ def test_shoebox_tail_energy_matches_image_sources(shoebox):
             ratios.append(band_energies(resp.tail[cell, s].astype(float)[:, a:b], FS).mean(axis=0) / reference)
     error_db = 10 * np.log10(np.mean(ratios, axis=0) / _head_gain(b - a))
     np.testing.assert_array_less(np.abs(error_db), 0.5)
+
+
+def test_silent_and_late_envelopes_give_silence():
+    # No energy, or an envelope shifted past the end, gives exact zeros (no NaN from the square roots);
+    # an envelope that starts mid-way leaves the samples before it at zero.
+    rng = np.random.default_rng(0)
+    zero = binaural_tails(np.zeros((2, N_BANDS, 10)), BIN, 640, np.zeros(2), FS, rng)
+    assert zero.shape == (2, 2, 640) and not np.any(zero)
+    late = binaural_tails(np.ones((2, N_BANDS, 10)), BIN, 640, np.array([700.0, 300.0]), FS, rng)
+    assert not np.any(late[0]) and not np.any(late[1, :, :300]) and np.all(np.isfinite(late))
+    assert np.any(late[1, :, 300:])
