@@ -150,7 +150,7 @@ def build_responses(scene: Scene, grid: Grid, settings: AcousticSettings,
         pair_hist = hist[owner[cells]].reshape(len(cells) * n_s, *hist.shape[2:])
         shift = ((direct[cells] - probe_dist[owner[cells]]) / c * fs).reshape(-1) + RESPONSE_LEAD
         tails = binaural_tails(pair_hist, hbss, length, shift, fs, np.random.default_rng(seeds[k]),
-                               air * c / fs if settings.air_absorption else None)
+                               air * c / fs if settings.air_absorption else None, settings.head_radius, c)
         tail[cells] = tails.reshape(len(cells), n_s, 2, length).astype(np.float16)
         if progress:
             progress(len(cells))

@@ -139,7 +139,9 @@ def test_rt60_against_eyring_and_sabine(reverberant):
 @pytest.mark.slow
 def test_tail_energy_matches_pyroomacoustics(reverberant):
     # Reference library: pyroomacoustics' own hybrid RIR (image sources + ray tracing) for the same room.
-    # The late energy (after 60 ms) of our tail, averaged over the ears, agrees within 2 dB.
+    # The late energy (after 60 ms) of our tail, averaged over the ears, agrees within 2 dB. A loose check:
+    # that RIR was measured (issue 12) 1-2.6 dB above an image-source sum, and ours sits about 1 dB below it;
+    # the 0.5 dB check against our own image-source reference is in tests/acoustics/test_tail.py.
     scene, settings, grid, resp = reverberant
     cell = int(np.argmax(np.linalg.norm(grid.centres - scene.spots[0].position[:2], axis=1)))
     rx = np.r_[grid.centres[cell], scene.ear_height]
@@ -152,13 +154,27 @@ def test_tail_energy_matches_pyroomacoustics(reverberant):
 
 
 def test_late_tail_is_diffuse_between_the_ears(reverberant):
-    # The diffuse field's coherence of two points d apart is sin(kd)/(kd) (Cook et al., JASA 1955 [from memory]);
-    # for ears 2a = 0.175 m apart its square stays below 0.05 above 1 kHz. The tails' measured magnitude-squared
-    # coherence must stay low (<= 0.3) above 1 kHz.
+    # A diffuse field's coherence at two points d apart is sin(kd)/(kd) (Cook, Waterhouse, Berendt, Edelman &
+    # Thompson, JASA 27(6), 1955). For ears 2a = 0.175 m apart that is 0.97 / 0.90 / 0.62 at 125 / 250 / 500 Hz
+    # and within +-0.22 above 1 kHz. The rendered tails' real coherence (cross-spectra averaged over all cells)
+    # is within 0.15 of it at 125-500 Hz, and the magnitude-squared coherence stays <= 0.3 above 1 kHz.
     scene, settings, grid, resp = reverberant
     tail = resp.tail.astype(float)[:, 0, :, int(0.08 * FS):]
     f, coh = signal.coherence(tail[:, 0], tail[:, 1], fs=FS, nperseg=256, axis=-1)
     assert np.mean(coh[:, f > 1000]) <= 0.3
+    f, gamma = _real_coherence(tail[:, 0], tail[:, 1], nperseg=1024)
+    d = 2 * settings.head_radius
+    for freq in (125.0, 250.0, 500.0):
+        expected = np.sin(2 * np.pi * freq * d / C) / (2 * np.pi * freq * d / C)
+        assert np.interp(freq, f, gamma) == pytest.approx(expected, abs=0.15), freq
+
+
+def _real_coherence(x, y, nperseg):
+    """Re(Sxy) / sqrt(Sxx Syy) with the spectra averaged over rows and Welch segments."""
+    f, sxy = signal.csd(x, y, fs=FS, nperseg=nperseg, axis=-1)
+    _, sxx = signal.welch(x, fs=FS, nperseg=nperseg, axis=-1)
+    _, syy = signal.welch(y, fs=FS, nperseg=nperseg, axis=-1)
+    return f, np.real(sxy.mean(axis=0)) / np.sqrt(sxx.mean(axis=0) * syy.mean(axis=0))
 
 
 def test_occlusion_removes_the_direct_path():
