@@ -38,9 +38,10 @@ MIN_ROOM_SIDE = 2.0
 DOOR_WIDTHS = (0.8, 0.9, 1.0, 1.1, 1.2)
 MAX_OBSTACLES = 8
 MAX_CELLS = 350
-#: Accepted Eyring RT60 (s) at 500 Hz and 1 kHz: furnished flats and living rooms (common practice). With the
-#: furnished rooms' scattering the rendered responses' T30 follows Eyring's estimate (tests/hostile/test_rooms.py).
-RT60_RANGE = (0.3, 0.6)
+#: Accepted Eyring RT60 (s) at 500 Hz and 1 kHz. The rendered responses' T30 of generated flats runs 10-30 %
+#: above Eyring's estimate (measured: 0.38 -> 0.46 s, 0.41 -> 0.48 s, 0.45 -> 0.56 s, 0.48 -> 0.62 s), so
+#: they measure about 0.3-0.6 s, the range of furnished flats and living rooms (common practice).
+RT60_RANGE = (0.25, 0.45)
 SPOT_MARGIN = 0.4  # horizontal clearance (m) of spots from every wall and obstacle
 
 WALL_MATERIALS = ("plasterboard", "plasterboard", "wooden_lining", "brick_wall_rough", "rough_lime_wash")
