@@ -180,7 +180,7 @@ def run_build(args) -> int:
         print(f"{scene.name}: {grid.n_cells} cells x {settings.n_headings} headings x {len(scene.spots)} spots, "
               f"responses {resp.length / resp.fs * 1000:.0f} ms at {resp.fs} Hz, "
               f"line of sight {resp.line_of_sight.mean() * 100:.0f}% of cell-spot pairs")
-        print(f"  RT60 measured, Schroeder T30 (500 Hz / 1 kHz): {resp.rt60[2]:.2f} / {resp.rt60[3]:.2f} s; "
-              f"Eyring estimate {_eyring_mid(scene):.2f} s")
+        t30 = " / ".join(f"{v:.2f} s" if v > 0 else "too short to measure" for v in resp.rt60[2:4])
+        print(f"  RT60 measured, Schroeder T30 (500 Hz / 1 kHz): {t30}; Eyring estimate {_eyring_mid(scene):.2f} s")
         print(f"  cache {path} ({path.stat().st_size / 1e6:.1f} MB), {seconds:.1f} s")
     return 0
