@@ -23,8 +23,8 @@ from hearnav.scene.model import Scene
 
 #: Cells synthesised per batch (fixed, so that the tail noise does not depend on anything but the seed).
 CHUNK_CELLS = 16
-# Bands whose decay sets the response length: 250 Hz to 4 kHz.
-_LENGTH_BANDS = slice(1, 6)
+# Bands whose decay sets the response length: 125 Hz to 4 kHz.
+_LENGTH_BANDS = slice(0, 6)
 #: Cells (spread over the plan: the first tail probes) whose rendered responses give the measured RT60.
 MEASURED_CELLS = 4
 
@@ -118,6 +118,24 @@ def _decay_rt60(hist: np.ndarray, bin_s: float) -> np.ndarray:
     return np.asarray(out)
 
 
+def _decay_end(hist: np.ndarray, bin_s: float, decay_db: float) -> float:
+    """Seconds from emission until the slowest band's pooled traced decay curve is ``decay_db`` down.
+
+    Parameters
+    ----------
+    hist : (n_probes, n_spots, n_bands, n_bins) traced energies.
+    bin_s : histogram bin width in seconds.
+    decay_db : how far down, dB (the histogram's end where the curve never gets there).
+    """
+    pooled = hist.sum(axis=(0, 1))[_LENGTH_BANDS]
+    end = 0.0
+    for band in pooled:
+        if band.sum() > 0:
+            below = np.nonzero(reverberation.schroeder_db(band) <= -decay_db)[0]
+            end = max(end, (below[0] + 1 if below.size else band.size) * bin_s)
+    return end
+
+
 def measured_rt60(early: np.ndarray, tail: np.ndarray, cells: np.ndarray, fs: int) -> np.ndarray:
     """Per-band Schroeder T30 of the rendered responses, averaged over a few cells and every spot.
 
@@ -153,9 +171,12 @@ def build_responses(scene: Scene, grid: Grid, settings: AcousticSettings,
     traced = _decay_rt60(hist, bin_s)
     spots = np.array([s.position for s in scene.spots])
     direct = np.linalg.norm(receivers[:, None, :] - spots[None, :, :], axis=2)  # (C, S)
-    # The length follows the slowest traced decay down to decay_db below the latest direct arrival;
-    # max_response_s is only a guard (the tracer runs that long, see room.tail_histograms).
-    reach = direct.max() / c + float(traced[_LENGTH_BANDS].max()) * settings.decay_db / 60
+    # The length follows the slowest traced decay down to decay_db: the fitted slope from the latest direct
+    # arrival, or the traced decay curve itself (moved to the cell farthest behind its probe), whichever ends
+    # later. max_response_s is only a guard (the tracer runs that long, see room.tail_histograms).
+    behind = float(np.max(direct - direct[probe_cells][owner], initial=0.0)) / c
+    reach = max(direct.max() / c + float(traced[_LENGTH_BANDS].max()) * settings.decay_db / 60,
+                _decay_end(hist, bin_s, settings.decay_db) + behind)
     length = int(np.ceil(min(settings.max_response_s, reach) * fs)) + RESPONSE_LEAD
     max_delay = (length - RESPONSE_LEAD - FD_TAPS) / fs - 2 * settings.head_radius / c
     air = room.air_coefficients(settings)
