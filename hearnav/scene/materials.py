@@ -23,7 +23,7 @@ DEFAULT_SCATTERING = 0.1
 #: Scattering of the walls, floor and ceiling of a furnished room (common practice; no handbook value). The
 #: extruded plan leaves out what scatters there (shelves, frames, radiators, window reveals, chair legs, lamps);
 #: with 0.1 the ray tracer's field stays far from diffuse: rays that skim an absorbing floor keep their shallow
-#: angle and decay at the reflective walls' rate, up to twice Eyring's time (see docs/ARCHITECTURE.md).
+#: angle and decay at the reflective walls' rate, up to twice Eyring's time (see README.md, Scattering).
 ROOM_SCATTERING = 0.3
 #: Scattering of furniture: the mean over 125 Hz - 8 kHz of "classroom_tables" (rows of tables and persons on
 #: chairs, 0.2 - 0.6) in the same table's scattering section (Vorlaender, *Auralization*, annex).
