@@ -69,7 +69,8 @@ def _encode(responses: Responses, key: str) -> dict[str, np.ndarray]:
     arrays = responses.arrays()
     arrays["spot_names"] = np.asarray(json.dumps(list(responses.spot_names)))
     shapes = {name: [a.dtype.str, list(a.shape)] for name, a in arrays.items()}
-    meta = {"key": key, "model": MODEL_VERSION, "checksum": _checksum(arrays), "arrays": shapes}
+    meta = {"key": key, "model": MODEL_VERSION, "checksum": _checksum(arrays), "arrays": shapes,
+            "rt60_t30": [round(float(v), 4) if np.isfinite(v) and v > 0 else None for v in responses.rt60]}
     arrays["meta"] = np.asarray(json.dumps(meta))
     return arrays
 

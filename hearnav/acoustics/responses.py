@@ -8,7 +8,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from hearnav.physics import reverberation
+from hearnav.physics import decay, reverberation
 from hearnav.physics.geometry import heading_angles
 from hearnav.acoustics.probes import choose_probes
 from hearnav.acoustics.synthesis import FD_TAPS, PathSet, early_fast
@@ -18,12 +18,15 @@ from hearnav.acoustics.tail import binaural_tails, smooth_histogram
 if TYPE_CHECKING:
     from hearnav.acoustics import room
 from hearnav.scene.grid import Grid
+from hearnav.scene.materials import BAND_CENTERS_HZ
 from hearnav.scene.model import Scene
 
 #: Cells synthesised per batch (fixed, so that the tail noise does not depend on anything but the seed).
 CHUNK_CELLS = 16
-# Bands whose decay sets the response length: 250 Hz to 4 kHz.
-_LENGTH_BANDS = slice(1, 6)
+# Bands whose decay sets the response length: 125 Hz to 4 kHz.
+_LENGTH_BANDS = slice(0, 6)
+#: Cells (spread over the plan: the first tail probes) whose rendered responses give the measured RT60.
+MEASURED_CELLS = 4
 
 
 @dataclass(frozen=True)
@@ -44,7 +47,7 @@ class Responses:
     first_delay: np.ndarray  # (C, S) float32 seconds: earliest path at the head centre (no lead)
     first_gain: np.ndarray  # (C, S) float32 broadband amplitude of the earliest path
     line_of_sight: np.ndarray  # (C, S) bool: the direct path is not blocked
-    rt60: np.ndarray  # (n_bands,) seconds, measured from the ray-traced decay
+    rt60: np.ndarray  # (n_bands,) seconds: Schroeder T30 of the rendered responses (0: not measurable)
 
     @property
     def n_headings(self) -> int:
@@ -95,7 +98,10 @@ def _pair_paths(images: list[room.ImageSources], receivers: np.ndarray, spots: n
 
 
 def _decay_rt60(hist: np.ndarray, bin_s: float) -> np.ndarray:
-    """Per-band RT60 of the pooled late histograms (T30, else T20; 0 where there is no decay to fit)."""
+    """Per-band RT60 of the pooled late histograms (T30, else T20; 0 where there is no decay to fit).
+
+    Sets the response length before anything is rendered; the stored RT60 is measured afterwards.
+    """
     pooled = hist.sum(axis=(0, 1))  # (B, n_bins)
     out = []
     for band in pooled:
@@ -112,6 +118,44 @@ def _decay_rt60(hist: np.ndarray, bin_s: float) -> np.ndarray:
     return np.asarray(out)
 
 
+def _decay_end(hist: np.ndarray, bin_s: float, decay_db: float) -> float:
+    """Seconds from emission until the slowest band's pooled traced decay curve is ``decay_db`` down.
+
+    Parameters
+    ----------
+    hist : (n_probes, n_spots, n_bands, n_bins) traced energies.
+    bin_s : histogram bin width in seconds.
+    decay_db : how far down, dB (the histogram's end where the curve never gets there).
+    """
+    pooled = hist.sum(axis=(0, 1))[_LENGTH_BANDS]
+    end = 0.0
+    for band in pooled:
+        if band.sum() > 0:
+            below = np.nonzero(reverberation.schroeder_db(band) <= -decay_db)[0]
+            end = max(end, (below[0] + 1 if below.size else band.size) * bin_s)
+    return end
+
+
+def measured_rt60(early: np.ndarray, tail: np.ndarray, cells: np.ndarray, fs: int) -> np.ndarray:
+    """Per-band Schroeder T30 of the rendered responses, averaged over a few cells and every spot.
+
+    Parameters
+    ----------
+    early : (C, H, S, 2, Le) early parts; heading 0 is used.
+    tail : (C, S, 2, L) tails.
+    cells : cell ids to measure at.
+    fs : sample rate in Hz.
+
+    Returns
+    -------
+    (n_bands,) seconds, 0 in bands no response decays far enough to measure (ISO 3382-1 T30), as in
+    :func:`_decay_rt60` (and so that equal builds compare equal element by element).
+    """
+    out = tail[cells].astype(np.float64)  # (n, S, 2, L)
+    out[..., : early.shape[-1]] += early[cells, 0].astype(np.float64)
+    return np.nan_to_num(decay.mean_t30(out.reshape(-1, 2, out.shape[-1]), fs, BAND_CENTERS_HZ), nan=0.0)
+
+
 def build_responses(scene: Scene, grid: Grid, settings: AcousticSettings,
                     progress: Callable[[int], None] | None = None) -> Responses:
     """Simulate the room and synthesise every response of a scene. ``progress(n)`` is called with cells done."""
@@ -124,10 +168,15 @@ def build_responses(scene: Scene, grid: Grid, settings: AcousticSettings,
     probe_cells, owner = choose_probes(grid, settings.probe_spacing)
     hist, bin_s, _ = room.tail_histograms(scene, settings, receivers[probe_cells])
     hist = smooth_histogram(hist)
-    rt60 = _decay_rt60(hist, bin_s)
+    traced = _decay_rt60(hist, bin_s)
     spots = np.array([s.position for s in scene.spots])
     direct = np.linalg.norm(receivers[:, None, :] - spots[None, :, :], axis=2)  # (C, S)
-    reach = direct.max() / c + float(rt60[_LENGTH_BANDS].max()) * settings.decay_db / 60
+    # The length follows the slowest traced decay down to decay_db: the fitted slope from the latest direct
+    # arrival, or the traced decay curve itself (moved to the cell farthest behind its probe), whichever ends
+    # later. max_response_s is only a guard (the tracer runs that long, see room.tail_histograms).
+    behind = float(np.max(direct - direct[probe_cells][owner], initial=0.0)) / c
+    reach = max(direct.max() / c + float(traced[_LENGTH_BANDS].max()) * settings.decay_db / 60,
+                _decay_end(hist, bin_s, settings.decay_db) + behind)
     length = int(np.ceil(min(settings.max_response_s, reach) * fs)) + RESPONSE_LEAD
     max_delay = (length - RESPONSE_LEAD - FD_TAPS) / fs - 2 * settings.head_radius / c
     air = room.air_coefficients(settings)
@@ -154,7 +203,8 @@ def build_responses(scene: Scene, grid: Grid, settings: AcousticSettings,
         tail[cells] = tails.reshape(len(cells), n_s, 2, length).astype(np.float16)
         if progress:
             progress(len(cells))
+    measured = measured_rt60(early, tail, probe_cells[:MEASURED_CELLS], fs)
     return Responses(fs, RESPONSE_LEAD, grid.centres, tuple(s.name for s in scene.spots), early, tail,
                      first_delay.reshape(n_c, n_s).astype(np.float32), first_gain.reshape(n_c, n_s).astype(np.float32),
-                     los.reshape(n_c, n_s), rt60)
+                     los.reshape(n_c, n_s), measured)
 

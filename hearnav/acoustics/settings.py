@@ -26,7 +26,8 @@ class AcousticSettings(BaseModel):
     receiver_radius: float = Field(default=0.5, gt=0.05, le=1.5, description="ray-tracing receiver sphere, m")
     probe_spacing: float = Field(default=2.0, ge=0.5, le=10.0, description="distance between tail probes, m")
     hist_bin: float = Field(default=0.004, gt=0.0005, le=0.02, description="ray-tracing histogram bin, s")
-    max_response_s: float = Field(default=0.6, ge=0.05, le=3.0, description="cap on response length, s")
+    max_response_s: float = Field(default=2.0, ge=0.05, le=3.0,
+                                  description="guard on response length, s (responses follow the decay)")
     decay_db: float = Field(default=60.0, ge=20.0, le=90.0, description="responses end this far below the peak")
     air_absorption: bool = False
     head_radius: float = Field(default=0.0875, ge=0.05, le=0.15, description="m")

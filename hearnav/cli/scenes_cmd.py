@@ -58,19 +58,36 @@ def _eyring_mid(scene) -> float:
     return float(np.mean(scene.eyring_rt60()[2:4]))  # 500 Hz and 1 kHz
 
 
+def _measured_mid(scene, settings) -> str:
+    """The measured T30 (500 Hz / 1 kHz mean) recorded in the scene's cache, or why there is none."""
+    from hearnav.acoustics.measured import cached_rt60
+    from hearnav.physics.decay import mid_t30
+    from hearnav.scene.materials import BAND_CENTERS_HZ
+
+    per_band = cached_rt60(scene, settings)
+    if per_band is None:
+        return "not built"
+    mid = mid_t30(per_band, BAND_CENTERS_HZ)
+    return f"{mid:.2f}" if np.isfinite(mid) else "too short"
+
+
 def run_list(args) -> int:
+    from hearnav.acoustics.settings import AcousticSettings
     from hearnav.scene.grid import build_grid
     from hearnav.scene.library import load_all
 
+    settings = AcousticSettings()  # what `scenes build` uses
     rows = []
     scenes, failed = load_all(args.split)
     for scene in scenes:
         grid = build_grid(scene)
         rows.append((scene.name, scene.split, f"{scene.floor_area:.1f}", str(grid.n_cells), str(len(scene.spots)),
-                     f"{_eyring_mid(scene):.2f}"))
-    header = ("name", "split", "area_m2", "cells", "spots", "rt60_s")
+                     f"{_eyring_mid(scene):.2f}", _measured_mid(scene, settings)))
+    header = ("name", "split", "area_m2", "cells", "spots", "eyring_s", "t30_s")
     _print_table(header, rows)
-    print("rt60_s: Eyring estimate, mean of the 500 Hz and 1 kHz bands.")
+    print("RT60 at 500 Hz and 1 kHz (mean). eyring_s: Eyring's estimate from the materials. t30_s: Schroeder T30 "
+          "of the scene's rendered responses at a few cells, recorded by `hearnav scenes build` (\"not built\" "
+          "until then).")
     for line in failed:
         print(f"hearnav: {line}", file=sys.stderr)
     return 1 if failed else 0
@@ -163,7 +180,7 @@ def run_build(args) -> int:
         print(f"{scene.name}: {grid.n_cells} cells x {settings.n_headings} headings x {len(scene.spots)} spots, "
               f"responses {resp.length / resp.fs * 1000:.0f} ms at {resp.fs} Hz, "
               f"line of sight {resp.line_of_sight.mean() * 100:.0f}% of cell-spot pairs")
-        print(f"  RT60 ray-traced (500 Hz / 1 kHz): {resp.rt60[2]:.2f} / {resp.rt60[3]:.2f} s; "
-              f"Eyring estimate {_eyring_mid(scene):.2f} s")
+        t30 = " / ".join(f"{v:.2f} s" if v > 0 else "too short to measure" for v in resp.rt60[2:4])
+        print(f"  RT60 measured, Schroeder T30 (500 Hz / 1 kHz): {t30}; Eyring estimate {_eyring_mid(scene):.2f} s")
         print(f"  cache {path} ({path.stat().st_size / 1e6:.1f} MB), {seconds:.1f} s")
     return 0

@@ -20,6 +20,14 @@ BAND_CENTERS_HZ: tuple[float, ...] = (125.0, 250.0, 500.0, 1000.0, 2000.0, 4000.
 N_BANDS = len(BAND_CENTERS_HZ)
 #: Scattering coefficient given to named materials that do not set one (common practice: 0.1).
 DEFAULT_SCATTERING = 0.1
+#: Scattering of the walls, floor and ceiling of a furnished room (common practice; no handbook value). The
+#: extruded plan leaves out what scatters there (shelves, frames, radiators, window reveals, chair legs, lamps);
+#: with 0.1 the ray tracer's field stays far from diffuse: rays that skim an absorbing floor keep their shallow
+#: angle and decay at the reflective walls' rate, up to twice Eyring's time (see README.md, Scattering).
+ROOM_SCATTERING = 0.3
+#: Scattering of furniture: the mean over 125 Hz - 8 kHz of "classroom_tables" (rows of tables and persons on
+#: chairs, 0.2 - 0.6) in the same table's scattering section (Vorlaender, *Auralization*, annex).
+FURNITURE_SCATTERING = 0.44
 
 
 @dataclass(frozen=True)
@@ -57,6 +65,13 @@ def absorption_table() -> dict[str, tuple[float, ...]]:
         for name, entry in group.items():
             table[name] = _to_bands(entry["coeffs"])
     return table
+
+
+@functools.cache
+def scattering_table() -> dict[str, tuple[float, ...]]:
+    """Every named scattering profile of the table, as seven octave-band coefficients."""
+    data = json.loads(_table_path().read_text(encoding="utf-8"))
+    return {name: _to_bands(entry["coeffs"]) for group in data["scattering"].values() for name, entry in group.items()}
 
 
 def named(name: str, scattering: float | list[float] | None = None) -> Material:

@@ -19,7 +19,7 @@ def _write(tmp_path, data):
 def test_list_prints_every_scene(capsys):
     assert main(["scenes", "list"]) == 0
     out = capsys.readouterr().out.splitlines()
-    assert out[0].split() == ["name", "split", "area_m2", "cells", "spots", "rt60_s"]
+    assert out[0].split() == ["name", "split", "area_m2", "cells", "spots", "eyring_s", "t30_s"]
     listed = {line.split()[0] for line in out[1:-1]}
     assert listed == set(scene_names())
 

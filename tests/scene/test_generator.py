@@ -49,7 +49,8 @@ def test_generated_scene_is_valid_and_plausible(seed):
     assert grid.start_cells.size >= 3
     assert grid_moves_cross_solids(scene, grid) == 0
     rt = scene.eyring_rt60()
-    assert np.all((rt[2:4] >= 0.25) & (rt[2:4] <= 1.0))
+    # Eyring 0.25 - 0.45 s: measured T30 runs 10-30 % above, in the furnished flats' 0.3 - 0.6 s (issue 12)
+    assert np.all((rt[2:4] >= 0.25) & (rt[2:4] <= 0.45))
 
 
 def test_spec_survives_yaml_round_trip():
