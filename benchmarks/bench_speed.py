@@ -28,7 +28,7 @@ def main() -> None:
 
     suite = load_suite(args.suite)
     folder = cache_dir() / "oracle"
-    cached = OracleCache(folder, suite.digest()).path
+    cached = OracleCache(folder, suite.result_key()).path
     with tempfile.TemporaryDirectory() as tmp:
         aside = Path(tmp) / "oracle.json"
         if cached.exists():
