@@ -23,13 +23,13 @@ def run(separator: str, split: str, seeds: list[int]) -> np.ndarray:
         rng = np.random.default_rng(seed)
         _, info = env.reset(seed=seed)
         scores = [info["si_sdr_db"]] if info["target_active"] else []
-        mixture = [info["ear_si_sdr_db"]] if info["target_active"] else []
+        mixture = [info["input_si_sdr_db"]] if info["target_active"] else []
         truncated = False
         while not truncated:
             _, _, _, truncated, info = env.step(int(rng.integers(4)))
             if info["target_active"]:
                 scores.append(info["si_sdr_db"])
-                mixture.append(info["ear_si_sdr_db"])
+                mixture.append(info["input_si_sdr_db"])
         per_episode.append((np.mean(scores), np.mean(mixture)))
     return np.array(per_episode)
 

@@ -1,11 +1,11 @@
 """The listening API: what a two-eared listener hears at a pose, window by window.
 
 Given a scene's responses, the sources (a spot and a dry signal each) and a time window, it returns the
-binaural mixture, each source's image at the two ears and the target reference (the target's dry signal
-delayed and scaled by its earliest arriving path, at the head centre). Mixing is FFT convolution with
-cached response spectra over the window plus everything emitted a response length before it, so the
-reverberant tail of earlier sound reaches the listener inside the window. After a move, the first
-``fade`` samples of a window cross-fade from the old pose's output to the new one's, so a move never clicks.
+binaural mixture, the target's early image and full image at the two ears (the references of the score,
+:mod:`hearnav.acoustics.early`), and optionally every source's image. Mixing is FFT convolution with cached
+response spectra over the window plus everything emitted a response length before it, so the reverberant tail
+of earlier sound reaches the listener inside the window. After a move, the first ``fade`` samples of a window
+cross-fade from the old pose's output to the new one's, so a move never clicks.
 """
 
 from __future__ import annotations
@@ -15,12 +15,16 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.fft as sfft
 
-from hearnav.acoustics.synthesis import FD_TAPS, fd_taps
+from collections import OrderedDict
+
+from hearnav.acoustics.early import early_window, onset
 from hearnav.acoustics.responses import Responses
 from hearnav.errors import ConfigError
 
 #: Default cross-fade after a move, in seconds.
 FADE_S = 0.02
+#: Early-part spectra a world keeps (a few pages each; the poses of an episode's neighbourhood).
+EARLY_CACHE = 256
 #: Rows pocketfft transforms together (float32 vector width): mixing pads its row counts to multiples.
 ROW_BLOCK = 4
 
@@ -39,15 +43,15 @@ class Window:
 
     start: int  # first sample, in emission time
     mixture: np.ndarray  # (2, n)
-    target_image: np.ndarray | None  # (2, n) the target's image at the two ears, when asked for
-    reference: np.ndarray  # (n,) the target reference
+    early: np.ndarray  # (2, n) the target's early image at the two ears: the score's reference
+    target_image: np.ndarray  # (2, n) the target's full (reverberant) image at the two ears
     images: np.ndarray | None  # (n_sources, 2, n) every source's image, when asked for
 
     def part(self, first: int, stop: int | None = None) -> Window:
         """Samples [first, stop) of this window (views), as a window starting ``first`` samples later."""
         cut = slice(first, stop)
-        return Window(self.start + first, self.mixture[..., cut], _part(self.target_image, cut),
-                      self.reference[..., cut], _part(self.images, cut))
+        return Window(self.start + first, self.mixture[..., cut], self.early[..., cut], self.target_image[..., cut],
+                      _part(self.images, cut))
 
 
 def _part(a: np.ndarray | None, cut: slice) -> np.ndarray | None:
@@ -56,8 +60,8 @@ def _part(a: np.ndarray | None, cut: slice) -> np.ndarray | None:
 
 @dataclass(frozen=True)
 class ResponseSpectra:
-    """A scene's responses on the mixing FFT grid of one window length and cross-fade, and what the target
-    reference needs: the tables :class:`ListeningWorld` mixes from (memory maps of the store, or in memory).
+    """A scene's responses on the mixing FFT grid of one window length and cross-fade: the tables
+    :class:`ListeningWorld` mixes from (memory maps of the store, or in memory).
 
     Every spectrum is complex64 (single precision), the rfft of the float32 response on ``n_fft`` points.
     """
@@ -68,10 +72,6 @@ class ResponseSpectra:
     window_len: int
     fade: int
     spectra: np.ndarray  # (C, H, S, 2, F) response spectra
-    references: np.ndarray  # (C, S, F) reference filter spectra (zero where the filter does not fit)
-    fits: np.ndarray  # (C, S) bool: the reference filter lies within the mix's history
-    first_delay: np.ndarray  # (C, S) float32 seconds: earliest path at the head centre (no lead)
-    first_gain: np.ndarray  # (C, S) float32 broadband amplitude of the earliest path
 
     @staticmethod
     def fft_size(window_len: int, fade: int, length: int) -> int:
@@ -84,11 +84,9 @@ class ResponseSpectra:
         window_len, fade = check_window(window_len), int(round(fade_s * responses.fs))
         c, h, s = responses.early.shape[:3]
         n_bins = cls.fft_size(window_len, fade, responses.length) // 2 + 1
-        out = [np.empty((c, h, s, 2, n_bins), np.complex64), np.empty((c, s, n_bins), np.complex64),
-               np.empty((c, s), bool)]
-        fill_spectra(responses, window_len, fade, *out)
-        return cls(responses.fs, responses.lead, responses.length, window_len, fade, *out,
-                   responses.first_delay, responses.first_gain)
+        spectra = np.empty((c, h, s, 2, n_bins), np.complex64)
+        fill_spectra(responses, window_len, fade, spectra)
+        return cls(responses.fs, responses.lead, responses.length, window_len, fade, spectra)
 
 
 def check_window(window_len: int) -> int:
@@ -98,35 +96,23 @@ def check_window(window_len: int) -> int:
     return int(window_len)
 
 
-def fill_spectra(responses: Responses, window_len: int, fade: int, spectra: np.ndarray, references: np.ndarray,
-                 fits: np.ndarray) -> None:
-    """Write every response spectrum (C, H, S, 2, F), reference filter spectrum (C, S, F) and fit flag (C, S) of
-    a scene's responses on the mixing FFT grid, one cell at a time (the outputs may be memory maps)."""
-    h, s = responses.early.shape[1:3]
+def fill_spectra(responses: Responses, window_len: int, fade: int, spectra: np.ndarray) -> None:
+    """Write every response spectrum (C, H, S, 2, F) of a scene's responses on the mixing FFT grid, one cell at a
+    time (the output may be a memory map)."""
+    h = responses.early.shape[1]
     n_fft = ResponseSpectra.fft_size(window_len, fade, responses.length)
     for cell in range(responses.early.shape[0]):
         resp = np.repeat(responses.tail[cell][None].astype(np.float32), h, axis=0)  # (H, S, 2, L)
         resp[..., : responses.early.shape[-1]] += responses.early[cell].astype(np.float32)
         spectra[cell] = sfft.rfft(resp, n_fft, axis=-1)
-        filters = np.zeros((s, n_fft), np.float32)
-        for spot in range(s):
-            first, taps = reference_filter(responses.first_delay[cell, spot], responses.first_gain[cell, spot],
-                                           responses.fs, responses.lead)
-            fits[cell, spot] = filter_fits(first, responses.length - 1)
-            if fits[cell, spot]:
-                filters[spot, first: first + FD_TAPS] = taps
-        references[cell] = sfft.rfft(filters, axis=-1)
 
 
-def reference_filter(first_delay: float, first_gain: float, fs: int, lead: int) -> tuple[int, np.ndarray]:
-    """First tap and (FD_TAPS,) taps of a reference filter: the earliest path's gain and delay plus the lead."""
-    first, taps = fd_taps(np.asarray(float(first_delay) * fs + lead))
-    return int(first), float(first_gain) * taps
-
-
-def filter_fits(first: int, history: int) -> bool:
-    """Whether a reference filter starting at tap ``first`` lies within a mix's ``history``."""
-    return 0 <= first and first + FD_TAPS <= history + 1
+def early_spectrum(spectrum: np.ndarray, n_fft: int, length: int, fs: int) -> np.ndarray:
+    """(2, F) complex64 spectrum of a response's early part (:mod:`hearnav.acoustics.early`) from the (2, F)
+    spectrum of the whole response on an ``n_fft``-point grid holding its ``length`` samples."""
+    response = sfft.irfft(spectrum, n_fft, axis=-1)[:, :length]
+    w = early_window(length, onset(response), fs).astype(np.float32)
+    return sfft.rfft(response * w, n_fft, axis=-1).astype(np.complex64, copy=False)
 
 
 class ListeningWorld:
@@ -140,7 +126,8 @@ class ListeningWorld:
         self.span = self.window_len + self.fade  # samples mixed per call
         self.n_fft = ResponseSpectra.fft_size(self.window_len, self.fade, tables.length)
         self.history = tables.length - 1  # past samples each mix needs
-        self._spectra, self._references, self._fits = tables.spectra, tables.references, tables.fits
+        self._spectra = tables.spectra
+        self._early: OrderedDict[tuple[int, int, int], np.ndarray] = OrderedDict()
 
     @classmethod
     def of(cls, responses: Responses, window_len: int, fade_s: float = FADE_S) -> ListeningWorld:
@@ -160,6 +147,21 @@ class ListeningWorld:
         """(2, F) complex64 spectrum of a response (read-only)."""
         return self._spectra[cell, heading, spot]
 
+    def early_spectrum(self, cell: int, heading: int, spot: int) -> np.ndarray:
+        """(2, F) complex64 spectrum of a response's early part (:func:`early_spectrum`), kept for the
+        :data:`EARLY_CACHE` poses used last."""
+        key = (int(cell), int(heading), int(spot))
+        spec = self._early.get(key)
+        if spec is None:
+            spec = early_spectrum(self.spectrum(*key), self.n_fft, self.tables.length, self.fs)
+            spec.flags.writeable = False
+            self._early[key] = spec
+            if len(self._early) > EARLY_CACHE:
+                self._early.popitem(last=False)
+        else:
+            self._early.move_to_end(key)
+        return spec
+
     def segment_spectra(self, sources: list[Source], start: int) -> np.ndarray:
         """(R, F) spectra of each dry signal over [start - history, start + span); rows past the sources are zero.
 
@@ -175,56 +177,28 @@ class ListeningWorld:
         return sfft.rfft(segs, axis=-1)
 
     def mix(self, cell: int, heading: int, sources: list[Source], start: int, target: int = 0,
-               all_images: bool = False, seg: np.ndarray | None = None, target_image: bool = True) -> Window:
+            all_images: bool = False, seg: np.ndarray | None = None) -> Window:
         """The span [start, start + window + fade) heard at a pose, with no cross-fade.
 
-        The mixture (2 rows), the reference (1) and the target image (2, when asked for) come out of one
-        inverse FFT of a row block.
+        The mixture, the target's early image and its full image (two rows each) come out of one inverse FFT
+        of a row block.
         """
         seg = self.segment_spectra(sources, start) if seg is None else seg
         keep = slice(self.history, self.history + self.span)
-        n = 3 + 2 * bool(target_image)
-        out = np.empty((_rows(n), self.n_fft // 2 + 1), np.complex64)
-        out[n:] = 0  # padding rows
-        np.multiply(seg[target], self.spectrum(cell, heading, sources[target].spot), out=out[0:2])
-        if target_image:
-            out[3:5] = out[0:2]
+        out = np.empty((_rows(6), self.n_fft // 2 + 1), np.complex64)
+        out[6:] = 0  # padding rows
+        np.multiply(seg[target], self.spectrum(cell, heading, sources[target].spot), out=out[4:6])
+        out[0:2] = out[4:6]
         for i, s in enumerate(sources):
             if i != target:
                 out[0:2] += seg[i] * self.spectrum(cell, heading, s.spot)
-        ref_spec = self.reference_spectrum(cell, sources[target].spot)
-        if ref_spec is not None:
-            np.multiply(seg[target], ref_spec, out=out[2])
-        else:
-            out[2] = 0
-        rows = sfft.irfft(out, self.n_fft, axis=-1)[:n, keep]
-        ref = rows[2] if ref_spec is not None else self.reference(cell, sources[target], start)
+        np.multiply(seg[target], self.early_spectrum(cell, heading, sources[target].spot), out=out[2:4])
+        rows = sfft.irfft(out, self.n_fft, axis=-1)[:6, keep]
         images = None
         if all_images:
             per_source = np.stack([seg[i] * self.spectrum(cell, heading, s.spot) for i, s in enumerate(sources)])
             images = sfft.irfft(per_source, self.n_fft, axis=-1)[..., keep]
-        return Window(start, rows[0:2], rows[3:5] if target_image else None, ref, images)
-
-    def reference_spectrum(self, cell: int, spot: int) -> np.ndarray | None:
-        """(F,) complex64 spectrum of the reference filter on the mixing FFT grid, or None when the filter
-        reaches past the mix's history (the reference is then filtered in the time domain)."""
-        return self._references[cell, spot] if self._fits[cell, spot] else None
-
-    def reference(self, cell: int, source: Source, start: int) -> np.ndarray:
-        """(span,) the source's dry signal delayed and scaled by its earliest path, with the responses' lead.
-
-        The fractional delay uses the same windowed-sinc filter as the responses, so the reference is one
-        time-invariant filter of the dry signal and continuous across windows. :meth:`mix` applies it in
-        the frequency domain; this is the time-domain form.
-        """
-        t = self.tables
-        first, taps = reference_filter(t.first_delay[cell, source.spot], t.first_gain[cell, source.spot], t.fs, t.lead)
-        lo = start - first - FD_TAPS + 1  # oldest dry sample needed
-        x = np.zeros(self.span + FD_TAPS - 1, np.float64)
-        a, b = max(lo, 0), min(start + self.span - first, len(source.signal))
-        if b > a:
-            x[a - lo : b - lo] = source.signal[a:b]
-        return np.convolve(x, taps, mode="valid").astype(np.float32)
+        return Window(start, rows[0:2], rows[2:4], rows[4:6], images)
 
 
 def _rows(n: int) -> int:
@@ -240,12 +214,10 @@ def _ramp(n: int) -> np.ndarray:
 class ListeningSession:
     """Consecutive windows for one set of sources, with cross-fades between poses."""
 
-    def __init__(self, world: ListeningWorld, sources: list[Source], target: int = 0, all_images: bool = False,
-                 target_image: bool = True):
+    def __init__(self, world: ListeningWorld, sources: list[Source], target: int = 0, all_images: bool = False):
         if not 0 <= target < len(sources):
             raise ConfigError(f"target must index one of the {len(sources)} sources (got {target})")
         self.world, self.sources, self.target, self.all_images = world, list(sources), target, all_images
-        self.target_image = target_image
         self.time = world.warmup
         self._tail: Window | None = None
         self._fade_out = (1.0 - _ramp(world.fade)).astype(np.float32)
@@ -259,14 +231,13 @@ class ListeningSession:
     def peek(self, cell: int, heading: int) -> Window:
         """The current window at any pose, without moving or advancing time (no cross-fade)."""
         win = self.world.mix(cell, heading, self.sources, self.time, self.target, self.all_images,
-                                self._current_seg(), self.target_image)
+                             self._current_seg())
         return win.part(0, self.world.window_len)
 
     def listen(self, cell: int, heading: int) -> Window:
         """The current window at a pose, cross-faded from the previous pose; then advance one window."""
         w = self.world
-        span = w.mix(cell, heading, self.sources, self.time, self.target, self.all_images, self._current_seg(),
-                        self.target_image)
+        span = w.mix(cell, heading, self.sources, self.time, self.target, self.all_images, self._current_seg())
         if self._tail is not None and w.fade:
             span = _blend(self._tail, span, self._fade_out)
         out = span.part(0, w.window_len)
@@ -280,7 +251,7 @@ def _blend(old: Window, new: Window, fade_out: np.ndarray) -> Window:
     """Cross-fade the first len(fade_out) samples of ``new`` from ``old``, in place (``new`` is freshly mixed):
     old * fade_out + new * (1 - fade_out)."""
     m = len(fade_out)
-    for v, o in ((new.mixture, old.mixture), (new.reference, old.reference), (new.target_image, old.target_image),
+    for v, o in ((new.mixture, old.mixture), (new.early, old.early), (new.target_image, old.target_image),
                  (new.images, old.images)):
         if v is not None and o is not None:
             head = v[..., :m]

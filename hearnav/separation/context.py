@@ -32,8 +32,9 @@ class SeparationContext:
     azimuth : target direction relative to the listener's heading, radians, counter-clockwise
         (0 straight ahead, +pi/2 to the left), horizontal plane.
     n_fft, hop : STFT frame and hop in samples (sqrt-Hann window; hop divides n_fft).
-    target_image : optional privileged (2, n) image of the target at the two ears; only separators
-        registered with ``privileged=True`` ever see it (the registry hides it from the others).
+    target_image : optional privileged (2, n) early image of the target at the two ears (the score's
+        reference); only separators registered with ``privileged=True`` ever see it (the registry hides it
+        from the others).
     radius, c : head radius (m) and speed of sound (m/s) of the head model the steering vector uses.
     known_stft : optional ``(signal, spectrum)`` pair the caller has already transformed with these STFT
         settings (the environment's features need the mixture's STFT too); :meth:`stft` returns the spectrum
@@ -106,7 +107,7 @@ class SeparationContext:
         return stft(x, self.n_fft, self.hop)
 
     def synthesise(self, spec: np.ndarray, n: int) -> np.ndarray:
-        """(n,) float32 signal of an (F, T) output spectrum (:func:`hearnav.separation.stft.istft`).
+        """(..., n) float32 signal of an (..., F, T) output spectrum (:func:`hearnav.separation.stft.istft`).
 
         The context remembers the pair, so a caller that needs the estimate's spectrum too (the environment's
         features) can take it from :meth:`spectrum_of` instead of transforming the estimate again.
@@ -116,7 +117,7 @@ class SeparationContext:
         return out
 
     def spectrum_of(self, signal: np.ndarray) -> np.ndarray | None:
-        """The (F, T) spectrum :meth:`synthesise` made ``signal`` from, or None if it did not make that array."""
+        """The (..., F, T) spectrum :meth:`synthesise` made ``signal`` from, or None if it did not make that array."""
         return self._synthesised[1] if self._synthesised and self._synthesised[0] is signal else None
 
     def das_conjugate(self) -> np.ndarray:
