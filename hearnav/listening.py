@@ -15,16 +15,12 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.fft as sfft
 
-from collections import OrderedDict
-
-from hearnav.acoustics.early import early_window, onset
+from hearnav.acoustics.early import cut_length, early_window, onsets
 from hearnav.acoustics.responses import Responses
 from hearnav.errors import ConfigError
 
 #: Default cross-fade after a move, in seconds.
 FADE_S = 0.02
-#: Early-part spectra a world keeps (a few pages each; the poses of an episode's neighbourhood).
-EARLY_CACHE = 256
 #: Rows pocketfft transforms together (float32 vector width): mixing pads its row counts to multiples.
 ROW_BLOCK = 4
 
@@ -60,10 +56,12 @@ def _part(a: np.ndarray | None, cut: slice) -> np.ndarray | None:
 
 @dataclass(frozen=True)
 class ResponseSpectra:
-    """A scene's responses on the mixing FFT grid of one window length and cross-fade: the tables
-    :class:`ListeningWorld` mixes from (memory maps of the store, or in memory).
+    """A scene's responses on the mixing FFT grid of one window length and cross-fade, and their early parts: the
+    tables :class:`ListeningWorld` mixes from (memory maps of the store, or in memory).
 
-    Every spectrum is complex64 (single precision), the rfft of the float32 response on ``n_fft`` points.
+    Every spectrum is complex64 (single precision), the rfft of the float32 response on ``n_fft`` points. The
+    early parts (:mod:`hearnav.acoustics.early`) are float32 responses, short enough to be applied on a grid of
+    their own.
     """
 
     fs: int
@@ -72,6 +70,7 @@ class ResponseSpectra:
     window_len: int
     fade: int
     spectra: np.ndarray  # (C, H, S, 2, F) response spectra
+    early: np.ndarray  # (C, H, S, 2, Le) float32 early parts of the responses, Le samples
 
     @staticmethod
     def fft_size(window_len: int, fade: int, length: int) -> int:
@@ -85,8 +84,9 @@ class ResponseSpectra:
         c, h, s = responses.early.shape[:3]
         n_bins = cls.fft_size(window_len, fade, responses.length) // 2 + 1
         spectra = np.empty((c, h, s, 2, n_bins), np.complex64)
-        fill_spectra(responses, window_len, fade, spectra)
-        return cls(responses.fs, responses.lead, responses.length, window_len, fade, spectra)
+        early = np.empty((c, h, s, 2, early_length(responses)), np.float32)
+        fill_spectra(responses, window_len, fade, spectra, early)
+        return cls(responses.fs, responses.lead, responses.length, window_len, fade, spectra, early)
 
 
 def check_window(window_len: int) -> int:
@@ -96,23 +96,30 @@ def check_window(window_len: int) -> int:
     return int(window_len)
 
 
-def fill_spectra(responses: Responses, window_len: int, fade: int, spectra: np.ndarray) -> None:
-    """Write every response spectrum (C, H, S, 2, F) of a scene's responses on the mixing FFT grid, one cell at a
-    time (the output may be a memory map)."""
+def _responses_of(responses: Responses, cell: int) -> np.ndarray:
+    """(H, S, 2, L) float32 responses of one cell."""
     h = responses.early.shape[1]
+    resp = np.repeat(responses.tail[cell][None].astype(np.float32), h, axis=0)
+    resp[..., : responses.early.shape[-1]] += responses.early[cell].astype(np.float32)
+    return resp
+
+
+def early_length(responses: Responses) -> int:
+    """Samples of the early parts of a scene's responses: up to the latest boundary of any (at most all)."""
+    latest = max(int(onsets(_responses_of(responses, cell)).max()) for cell in range(responses.early.shape[0]))
+    return min(cut_length(latest, responses.fs), responses.length)
+
+
+def fill_spectra(responses: Responses, window_len: int, fade: int, spectra: np.ndarray, early: np.ndarray) -> None:
+    """Write every response spectrum (C, H, S, 2, F) of a scene's responses on the mixing FFT grid and every
+    response's early part (C, H, S, 2, Le), one cell at a time (the outputs may be memory maps)."""
     n_fft = ResponseSpectra.fft_size(window_len, fade, responses.length)
+    n_early = early.shape[-1]
     for cell in range(responses.early.shape[0]):
-        resp = np.repeat(responses.tail[cell][None].astype(np.float32), h, axis=0)  # (H, S, 2, L)
-        resp[..., : responses.early.shape[-1]] += responses.early[cell].astype(np.float32)
+        resp = _responses_of(responses, cell)  # (H, S, 2, L)
         spectra[cell] = sfft.rfft(resp, n_fft, axis=-1)
-
-
-def early_spectrum(spectrum: np.ndarray, n_fft: int, length: int, fs: int) -> np.ndarray:
-    """(2, F) complex64 spectrum of a response's early part (:mod:`hearnav.acoustics.early`) from the (2, F)
-    spectrum of the whole response on an ``n_fft``-point grid holding its ``length`` samples."""
-    response = sfft.irfft(spectrum, n_fft, axis=-1)[:, :length]
-    w = early_window(length, onset(response), fs).astype(np.float32)
-    return sfft.rfft(response * w, n_fft, axis=-1).astype(np.complex64, copy=False)
+        w = early_window(n_early, onsets(resp), responses.fs)  # (H, S, Le)
+        early[cell] = resp[..., :n_early] * w[:, :, None, :].astype(np.float32)
 
 
 class ListeningWorld:
@@ -126,8 +133,10 @@ class ListeningWorld:
         self.span = self.window_len + self.fade  # samples mixed per call
         self.n_fft = ResponseSpectra.fft_size(self.window_len, self.fade, tables.length)
         self.history = tables.length - 1  # past samples each mix needs
-        self._spectra = tables.spectra
-        self._early: OrderedDict[tuple[int, int, int], np.ndarray] = OrderedDict()
+        self._spectra, self._early = tables.spectra, tables.early
+        self.early_len = int(tables.early.shape[-1])
+        self.n_early = sfft.next_fast_len(self.span + self.early_len - 1, real=True)  # the early image's grid
+        self._early_block = np.zeros((ROW_BLOCK, self.n_early), np.float32)  # reused by every early_image call
 
     @classmethod
     def of(cls, responses: Responses, window_len: int, fade_s: float = FADE_S) -> ListeningWorld:
@@ -147,21 +156,6 @@ class ListeningWorld:
         """(2, F) complex64 spectrum of a response (read-only)."""
         return self._spectra[cell, heading, spot]
 
-    def early_spectrum(self, cell: int, heading: int, spot: int) -> np.ndarray:
-        """(2, F) complex64 spectrum of a response's early part (:func:`early_spectrum`), kept for the
-        :data:`EARLY_CACHE` poses used last."""
-        key = (int(cell), int(heading), int(spot))
-        spec = self._early.get(key)
-        if spec is None:
-            spec = early_spectrum(self.spectrum(*key), self.n_fft, self.tables.length, self.fs)
-            spec.flags.writeable = False
-            self._early[key] = spec
-            if len(self._early) > EARLY_CACHE:
-                self._early.popitem(last=False)
-        else:
-            self._early.move_to_end(key)
-        return spec
-
     def segment_spectra(self, sources: list[Source], start: int) -> np.ndarray:
         """(R, F) spectra of each dry signal over [start - history, start + span); rows past the sources are zero.
 
@@ -180,25 +174,40 @@ class ListeningWorld:
             all_images: bool = False, seg: np.ndarray | None = None) -> Window:
         """The span [start, start + window + fade) heard at a pose, with no cross-fade.
 
-        The mixture, the target's early image and its full image (two rows each) come out of one inverse FFT
-        of a row block.
+        The mixture and the target's full image (two rows each) come out of one inverse FFT of a row block;
+        the target's early image out of one forward and one inverse FFT on the short grid of the early parts
+        (the dry target and the two ears' early parts in one row block).
         """
         seg = self.segment_spectra(sources, start) if seg is None else seg
         keep = slice(self.history, self.history + self.span)
-        out = np.empty((_rows(6), self.n_fft // 2 + 1), np.complex64)
-        out[6:] = 0  # padding rows
-        np.multiply(seg[target], self.spectrum(cell, heading, sources[target].spot), out=out[4:6])
-        out[0:2] = out[4:6]
+        out = np.empty((ROW_BLOCK, self.n_fft // 2 + 1), np.complex64)
+        np.multiply(seg[target], self.spectrum(cell, heading, sources[target].spot), out=out[2:4])
+        out[0:2] = out[2:4]
         for i, s in enumerate(sources):
             if i != target:
                 out[0:2] += seg[i] * self.spectrum(cell, heading, s.spot)
-        np.multiply(seg[target], self.early_spectrum(cell, heading, sources[target].spot), out=out[2:4])
-        rows = sfft.irfft(out, self.n_fft, axis=-1)[:6, keep]
+        rows = sfft.irfft(out, self.n_fft, axis=-1)[:, keep]
         images = None
         if all_images:
             per_source = np.stack([seg[i] * self.spectrum(cell, heading, s.spot) for i, s in enumerate(sources)])
             images = sfft.irfft(per_source, self.n_fft, axis=-1)[..., keep]
-        return Window(start, rows[0:2], rows[2:4], rows[4:6], images)
+        early = self.early_image(cell, heading, sources[target], start)
+        return Window(start, rows[0:2], early, rows[2:4], images)
+
+    def early_image(self, cell: int, heading: int, source: Source, start: int) -> np.ndarray:
+        """(2, span) the source's early image at the two ears over [start, start + span): its dry signal through
+        the early parts of its responses (linear convolution on the early grid)."""
+        lead = self.early_len - 1
+        block = self._early_block  # rows: the dry target, the two early parts, zeros (beyond them all zeros)
+        a, b = max(start - lead, 0), min(start + self.span, len(source.signal))
+        block[0, : self.span + lead] = 0
+        if b > a:
+            block[0, a - (start - lead): b - (start - lead)] = source.signal[a:b]
+        block[1:3, : self.early_len] = self._early[cell, heading, source.spot]
+        spec = sfft.rfft(block, axis=-1)
+        spec[1:3] *= spec[0]
+        spec[0] = spec[3] = 0
+        return sfft.irfft(spec, self.n_early, axis=-1)[1:3, lead: lead + self.span]
 
 
 def _rows(n: int) -> int:

@@ -302,16 +302,15 @@ def test_target_must_index_a_source(world, target):
         ListeningSession(world, noise_sources(world, 1), target=target)
 
 
-# --- the mix's frequency-domain paths ---------------------------------------------------------------
+# --- the early parts of the responses -------------------------------------------------------------------
 
 
-def test_early_spectra_are_kept_for_the_last_poses_only(world, monkeypatch):
-    import hearnav.listening as listening
-
-    monkeypatch.setattr(listening, "EARLY_CACHE", 2)
-    first = world.early_spectrum(NEAR_A, 0, 0)
-    assert world.early_spectrum(NEAR_A, 0, 0) is first and not first.flags.writeable
-    world.early_spectrum(GENERIC, 0, 0)
-    world.early_spectrum(FAR, 0, 0)
-    assert world.early_spectrum(NEAR_A, 0, 0) is not first  # dropped, then computed again
-    np.testing.assert_array_equal(world.early_spectrum(NEAR_A, 0, 0), first)
+def test_stored_early_parts_are_the_c50_split_of_every_response(responses, world):
+    early = world.tables.early
+    assert early.shape[:4] == responses.early.shape[:3] + (2,) and early.dtype == np.float32
+    for cell in range(early.shape[0]):
+        for heading in range(early.shape[1]):
+            for spot in range(early.shape[2]):
+                want = c50_split(responses.response(cell, heading, spot))
+                assert np.all(want[:, early.shape[-1]:] == 0)  # nothing of the early part is left out
+                assert_close(early[cell, heading, spot], want[:, : early.shape[-1]], rel=1e-6)

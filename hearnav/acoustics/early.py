@@ -26,59 +26,64 @@ TAPER_S = 0.002
 ONSET_DB = 20.0
 
 
-def onset(response: np.ndarray) -> int:
-    """Index of the first arrival of a response (ISO 3382-1 onset).
+def onsets(responses: np.ndarray) -> np.ndarray:
+    """Index of the first arrival of binaural responses (ISO 3382-1 onset, the earlier of the two ears).
 
     Parameters
     ----------
-    response : (..., L) real response(s); with several rows (e.g. two ears) the earliest onset of any row.
+    responses : (..., 2, L) real responses, ears on the second-last axis.
 
     Returns
     -------
-    First sample whose energy is at least the peak energy times 10^(-ONSET_DB / 10) (0 for a silent response).
+    (...) int: the first sample whose energy at either ear is at least the peak energy of both ears times
+    10^(-ONSET_DB / 10) (0 for a silent response).
     """
-    power = np.square(np.asarray(response, np.float64)).reshape(-1, np.shape(response)[-1]).max(axis=0)
-    peak = power.max(initial=0.0)
-    if peak <= 0.0:
-        return 0
-    return int(np.argmax(power >= peak * 10.0 ** (-ONSET_DB / 10)))
+    power = np.square(np.asarray(responses, np.float64)).max(axis=-2)  # (..., L)
+    peak = power.max(axis=-1, keepdims=True)
+    return np.where(peak[..., 0] > 0, np.argmax(power >= peak * 10.0 ** (-ONSET_DB / 10), axis=-1), 0)
 
 
-def early_window(length: int, first: int, fs: float, early_s: float = EARLY_S, taper_s: float = TAPER_S) -> np.ndarray:
-    """The early/late weighting of a response: 1 before the boundary, 0 after, a raised cosine across it.
+def cut_length(first: int | np.ndarray, fs: float, early_s: float = EARLY_S, taper_s: float = TAPER_S) -> int:
+    """Samples a response's early part spans (its last non-zero weight is before this), for the latest onset."""
+    return int(np.max(first)) + int(np.ceil((early_s + taper_s / 2) * fs)) + 1
+
+
+def early_window(length: int, first: int | np.ndarray, fs: float, early_s: float = EARLY_S,
+                 taper_s: float = TAPER_S) -> np.ndarray:
+    """The early/late weighting of responses: 1 before the boundary, 0 after, a raised cosine across it.
 
     Parameters
     ----------
-    length : samples of the response.
-    first : sample of the first arrival (:func:`onset`).
+    length : samples of the responses.
+    first : (...) sample(s) of the first arrival (:func:`onsets`).
     fs : sampling rate, Hz.
     early_s, taper_s : boundary after the first arrival and taper length, seconds.
 
     Returns
     -------
-    (length,) float64 weights w in [0, 1]; the early part is w h and the late part (1 - w) h.
+    (..., length) float64 weights w in [0, 1]; the early part is w h and the late part (1 - w) h.
     """
-    boundary = first + early_s * fs
+    boundary = np.asarray(first, np.float64)[..., None] + early_s * fs
     half = 0.5 * taper_s * fs
     t = np.arange(length, dtype=np.float64)
     x = np.clip((t - (boundary - half)) / max(2 * half, 1e-9), 0.0, 1.0)
     return 0.5 + 0.5 * np.cos(np.pi * x)
 
 
-def split_response(response: np.ndarray, fs: float, early_s: float = EARLY_S,
+def split_response(responses: np.ndarray, fs: float, early_s: float = EARLY_S,
                    taper_s: float = TAPER_S) -> tuple[np.ndarray, np.ndarray]:
-    """Early and late parts of a (binaural) response, cut at one boundary after its first arrival.
+    """Early and late parts of binaural responses, each cut at one boundary after its first arrival.
 
     Parameters
     ----------
-    response : (..., L) response(s), e.g. (2, L) for two ears.
+    responses : (..., 2, L) responses, ears on the second-last axis.
     fs : sampling rate, Hz.
 
     Returns
     -------
-    (early, late), each of the response's shape; early + late == response.
+    (early, late), each of the responses' shape and dtype; early + late == responses.
     """
-    response = np.asarray(response)
-    w = early_window(response.shape[-1], onset(response), fs, early_s, taper_s).astype(response.dtype)
-    early = response * w
-    return early, response - early
+    responses = np.asarray(responses)
+    w = early_window(responses.shape[-1], onsets(responses), fs, early_s, taper_s).astype(responses.dtype)
+    early = responses * w[..., None, :]
+    return early, responses - early

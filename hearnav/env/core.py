@@ -21,7 +21,7 @@ from hearnav.env.episode import (
 )
 from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor, band_edges
 from hearnav.env.privileged import PrivilegedView
-from hearnav.env.scoring import SILENT_ENERGY, binaural_scores
+from hearnav.env.scoring import SILENT_ENERGY, binaural_scores, window_scores
 from hearnav.env.worlds import World, get_maps, get_world, scene_list
 from hearnav.errors import ConfigError, HearnavError, did_you_mean, short_repr
 from hearnav.listening import FADE_S, ListeningSession, Source, Window
@@ -288,12 +288,10 @@ class HearNavEnv(gym.Env):
         estimate = self.separator(scored.mixture, ctx, trusted=True)
         self._heard = Heard(window, scored, estimate)
         self._estimate_spec = ctx.spectrum_of(estimate)
-        score, given = _scores(scored.early, estimate, scored.mixture)
-        full, given_full = _scores(scored.target_image, estimate, scored.mixture)
-        self.target_active = score is not None and full is not None
-        if self.target_active:
-            self.si_sdr_db, self.input_si_sdr_db = score, given
-            self.full_si_sdr_db, self.input_full_si_sdr_db = full, given_full
+        scores = window_scores(estimate, scored.mixture, scored.early, scored.target_image)
+        self.target_active = scores is not None
+        if scores is not None:
+            self.si_sdr_db, self.full_si_sdr_db, self.input_si_sdr_db, self.input_full_si_sdr_db = scores
 
     # -- separation ----------------------------------------------------------------------------------------------
 

@@ -106,9 +106,12 @@ def to_ears(d: np.ndarray, y: np.ndarray) -> np.ndarray:
 
     Returns
     -------
-    (2, F, T) spectra d_e Y, in the precision of ``y``.
+    (2, F, T) spectra d_e Y, in the precision of ``y`` (a view of a frame-major array, as
+    :func:`hearnav.separation.stft.stft` makes, when ``y`` is one).
     """
-    return np.swapaxes(d, 0, 1).astype(y.dtype, copy=False)[:, :, None] * y[None]
+    frames = np.swapaxes(y, -1, -2)  # (T, F): contiguous bins for hearnav's stft output
+    per_ear = np.ascontiguousarray(np.swapaxes(d, 0, 1), dtype=y.dtype)  # (2, F), contiguous: a fast product
+    return np.swapaxes(per_ear[:, None, :] * frames[None], -1, -2)
 
 
 def mvdr_weights(cov: np.ndarray, d: np.ndarray, loading: float = LOADING) -> np.ndarray:

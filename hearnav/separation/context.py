@@ -58,6 +58,7 @@ class SeparationContext:
     das: np.ndarray | None = field(default=None, compare=False, repr=False)
     _synthesised: list = field(default_factory=list, init=False, compare=False, repr=False)
     _steering: list = field(default_factory=list, init=False, compare=False, repr=False)
+    _given_das: bool = field(default=False, init=False, compare=False, repr=False)
 
     def __post_init__(self) -> None:
         for name, value in (("fs", self.fs), ("azimuth", self.azimuth), ("radius", self.radius), ("c", self.c)):
@@ -74,6 +75,7 @@ class SeparationContext:
                 raise ConfigError(f"SeparationContext.target_image must be a (2, n) array, got shape {shape}")
         if self.known_stft is not None:
             self._check_known_stft()
+        object.__setattr__(self, "_given_das", self.das is not None)
         if self.das is None:
             w = das_conjugates(np.array([float(self.azimuth)]), self._freqs(), float(self.radius), float(self.c))[0]
             w.flags.writeable = False
@@ -127,10 +129,15 @@ class SeparationContext:
 
     def steering(self) -> np.ndarray:
         """(F, 2) steering vector of the target direction on the STFT bins (read-only; computed on first use from
-        the head model, :func:`hearnav.physics.steering.steering_vector`)."""
+        the head model, :func:`hearnav.physics.steering.steering_vector`, or, when the context was given its
+        delay-and-sum weights w^H, from them: w = d / (d^H d) gives d = w / (w^H w), in single precision)."""
         if not self._steering:
-            d = np.ascontiguousarray(steering_vector(float(self.azimuth), self._freqs(), float(self.radius),
-                                                     float(self.c)))
+            if self._given_das:
+                w = np.conj(self.das.T)
+                d = np.ascontiguousarray(w / np.sum(w.real ** 2 + w.imag ** 2, axis=-1, keepdims=True))
+            else:
+                d = np.ascontiguousarray(steering_vector(float(self.azimuth), self._freqs(), float(self.radius),
+                                                         float(self.c)))
             d.flags.writeable = False
             self._steering.append(d)
         return self._steering[0]

@@ -4,8 +4,9 @@
   it on the separator's STFT bins, and the responses' facts the mixing and the maps need (earliest path delay
   and gain, line of sight, length, lead). Key: the response cache key (scene content, acoustic settings, model
   version), the STFT frame, and the code that computes them.
-- ``spectra``: the response spectra on the mixing FFT grid. Key: the response key, the window length and
-  cross-fade, and the code.
+- ``spectra``: the response spectra on the mixing FFT grid, and the responses' early parts (the score's
+  reference, :mod:`hearnav.acoustics.early`). Key: the response key, the window length and cross-fade, and the
+  code.
 - ``maps``: the egocentric maps of every pose. Key: the poses key, the patch size and the field of view.
 
 A part is built from the cached responses (:func:`hearnav.acoustics.cache.load_or_build`, which builds them
@@ -21,7 +22,7 @@ from pathlib import Path
 import numpy as np
 
 from hearnav import listening
-from hearnav.acoustics import synthesis
+from hearnav.acoustics import early, synthesis
 from hearnav.acoustics.cache import cache_key, load_or_build
 from hearnav.acoustics.settings import AcousticSettings
 from hearnav.tables import maps, poses
@@ -37,7 +38,8 @@ from hearnav.tables.store import Part, PartWriter, digest, open_part, source_dig
 STFT_FRAME = SeparationContext.n_fft
 _POSES_CODE = (poses, steering, head, geometry, grid_module, stft.stft_freqs)
 # The mixing code that computes the spectra (the rest of hearnav.listening does not change them).
-_SPECTRA_CODE = (listening.ResponseSpectra.fft_size, listening.fill_spectra, synthesis)
+_SPECTRA_CODE = (listening.ResponseSpectra.fft_size, listening.fill_spectra, listening.early_length,
+                 listening._responses_of, early, synthesis)
 _FACTS = ("line_of_sight", "first_delay", "first_gain")
 _GRID_ARRAYS = tuple(f.name for f in dataclasses.fields(Grid) if f.name not in ("spacing", "n_headings"))
 
@@ -112,11 +114,12 @@ def response_spectra(scene: Scene, settings: AcousticSettings, window_len: int,
         responses = load_or_build(scene, settings)
         c, h, s = responses.early.shape[:3]
         n_bins = listening.ResponseSpectra.fft_size(window_len, fade, responses.length) // 2 + 1
-        listening.fill_spectra(responses, window_len, fade, out.empty("spectra", (c, h, s, 2, n_bins), np.complex64))
+        listening.fill_spectra(responses, window_len, fade, out.empty("spectra", (c, h, s, 2, n_bins), np.complex64),
+                               out.empty("early", (c, h, s, 2, listening.early_length(responses)), np.float32))
 
-    part = open_part(_folder(scene, "spectra", key), key, ("spectra",), build)
+    part = open_part(_folder(scene, "spectra", key), key, ("spectra", "early"), build)
     pt = pose_tables(scene, settings)
-    return listening.ResponseSpectra(pt.fs, pt.lead, pt.length, window_len, fade, part["spectra"])
+    return listening.ResponseSpectra(pt.fs, pt.lead, pt.length, window_len, fade, part["spectra"], part["early"])
 
 
 def pose_maps(scene: Scene, settings: AcousticSettings, size: int, fov_rad: float) -> maps.PoseMaps:
