@@ -99,7 +99,8 @@ class HearNavEnv(gym.Env):
 
     Each episode places a target sound and 1-3 distractors at named spots of a scene; the sources play
     continuously. Every step the listener acts, then hears the next ``step_s`` seconds at its new pose. The
-    built-in separator (``separator``, steered at the target spot's direction) estimates the target at
+    built-in separator (``separator``, steered at the direction the target's earliest path arrives from: the spot's
+    in line of sight, a reflection's when the straight line is blocked) estimates the target at
     each ear from the binaural mixture. The score is the mean over the two ears of the SI-SDR (Le Roux et al.,
     2019) of that ear's estimate against that ear's early image of the target (its image through the response
     cut 50 ms after the first arrival, the C50 split of ISO 3382-1; :mod:`hearnav.acoustics.early`), and the
@@ -302,10 +303,12 @@ class HearNavEnv(gym.Env):
 
     def context(self, cell: int, heading: int, window: Window | None = None,
                 known_stft: tuple[np.ndarray, np.ndarray] | None = None) -> SeparationContext:
-        """The separator's side information at a pose (the target's early image only for privileged separators)."""
+        """The separator's side information at a pose: the bearing the target's earliest path arrives from (its
+        spot's bearing in line of sight; a reflection's when the straight line is blocked) with the delay-and-sum
+        weights towards it, and the target's early image only for privileged separators."""
         image = window.early if (window is not None and self.separator.privileged) else None
         spot, poses = self._spot_ids[0], self._poses
-        return SeparationContext(fs=self.fs, azimuth=float(poses.bearing[cell, heading, spot]), target_image=image,
+        return SeparationContext(fs=self.fs, azimuth=float(poses.arrival[cell, heading, spot]), target_image=image,
                                  known_stft=known_stft, das=poses.das[cell, heading, spot],
                                  radius=self.config.acoustics.head_radius, c=self.config.acoustics.speed_of_sound)
 

@@ -62,13 +62,27 @@ def test_stored_pose_tables_are_the_plane_geometry_of_each_pose(scene):
                 assert tables.distance[cell, s] == pytest.approx(math.hypot(sx - x, sy - y), abs=1e-12)
 
 
-def test_stored_weights_are_the_delay_and_sum_weights_of_each_bearing(scene):
+def test_arrival_is_the_spot_s_bearing_in_line_of_sight_and_a_reflection_s_behind_a_wall(scene):
+    # Plane geometry: with the straight line open, the earliest path is the direct one, from the spot's bearing.
+    # Behind the partition it is a reflection (the image method: an image source mirrored in a wall, Allen &
+    # Berkley 1979), which comes from elsewhere, and lies farther than the straight line.
+    tables = pose_tables(scene, SETTINGS)
+    los = tables.line_of_sight
+    assert los.any() and (~los).any()
+    seen = np.broadcast_to(los[:, None, :], tables.arrival.shape)
+    np.testing.assert_allclose(tables.arrival[seen], tables.bearing[seen], atol=1e-5)
+    turned = np.abs(np.angle(np.exp(1j * (tables.arrival - tables.bearing))))[~seen]
+    assert np.median(turned) > 0.1
+    assert np.all(tables.first_delay[~los] * 343.0 > tables.distance[~los] - 1e-3)
+
+
+def test_stored_weights_are_the_delay_and_sum_weights_of_each_arrival(scene):
     tables = pose_tables(scene, SETTINGS)
     c, h, s = tables.bearing.shape
     assert tables.das.shape == (c, h, s, 2, 257) and tables.das.dtype == np.complex64
     freqs = stft_freqs(512, SETTINGS.fs)
     for cell, heading, spot in [(0, 0, 0), (3, 1, 2), (c - 1, h - 1, s - 1)]:
-        d = steering_vector(tables.bearing[cell, heading, spot], freqs, SETTINGS.head_radius, SETTINGS.speed_of_sound)
+        d = steering_vector(tables.arrival[cell, heading, spot], freqs, SETTINGS.head_radius, SETTINGS.speed_of_sound)
         wh = tables.das[cell, heading, spot]
         np.testing.assert_allclose(wh, np.conj(das_weights(d)).T, rtol=1e-6, atol=1e-7)  # w = d / (d^H d)
         np.testing.assert_allclose(np.sum(wh * d.T, axis=0), 1.0, atol=1e-6)  # w^H d = 1
