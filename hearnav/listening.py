@@ -136,7 +136,7 @@ class ListeningWorld:
         self._spectra, self._early = tables.spectra, tables.early
         self.early_len = int(tables.early.shape[-1])
         self.n_early = sfft.next_fast_len(self.span + self.early_len - 1, real=True)  # the early image's grid
-        self._early_block = np.zeros((ROW_BLOCK, self.n_early), np.float32)  # reused by every early_image call
+        self._buffers: dict[str, np.ndarray] = {}
 
     @classmethod
     def of(cls, responses: Responses, window_len: int, fade_s: float = FADE_S) -> ListeningWorld:
@@ -163,12 +163,21 @@ class ListeningWorld:
         many float32 rows together with vector instructions, so four rows cost about as much as one.
         """
         lo, hi = start - self.history, start + self.span
-        segs = np.zeros((_rows(len(sources)), self.n_fft), np.float32)
+        segs = self._scratch("segments", (_rows(len(sources)), self.n_fft), np.float32)
+        segs[:] = 0
         for i, src in enumerate(sources):
             a, b = max(lo, 0), min(hi, len(src.signal))
             if b > a:
                 segs[i, a - lo : b - lo] = src.signal[a:b]
         return sfft.rfft(segs, axis=-1)
+
+    def _scratch(self, name: str, shape: tuple[int, ...], dtype: type) -> np.ndarray:
+        """A work array this world reuses (its contents are not kept between calls): reusing it spares the
+        operating system mapping and zeroing fresh pages for every window."""
+        a = self._buffers.get(name)
+        if a is None or a.shape != shape:
+            a = self._buffers[name] = np.zeros(shape, dtype)
+        return a
 
     def mix(self, cell: int, heading: int, sources: list[Source], start: int, target: int = 0,
             all_images: bool = False, seg: np.ndarray | None = None) -> Window:
@@ -180,7 +189,7 @@ class ListeningWorld:
         """
         seg = self.segment_spectra(sources, start) if seg is None else seg
         keep = slice(self.history, self.history + self.span)
-        out = np.empty((ROW_BLOCK, self.n_fft // 2 + 1), np.complex64)
+        out = self._scratch("mixed", (ROW_BLOCK, self.n_fft // 2 + 1), np.complex64)
         np.multiply(seg[target], self.spectrum(cell, heading, sources[target].spot), out=out[2:4])
         out[0:2] = out[2:4]
         for i, s in enumerate(sources):
@@ -198,7 +207,7 @@ class ListeningWorld:
         """(2, span) the source's early image at the two ears over [start, start + span): its dry signal through
         the early parts of its responses (linear convolution on the early grid)."""
         lead = self.early_len - 1
-        block = self._early_block  # rows: the dry target, the two early parts, zeros (beyond them all zeros)
+        block = self._scratch("early", (ROW_BLOCK, self.n_early), np.float32)  # dry target, two early parts, zeros
         a, b = max(start - lead, 0), min(start + self.span, len(source.signal))
         block[0, : self.span + lead] = 0
         if b > a:

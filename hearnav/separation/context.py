@@ -119,8 +119,13 @@ class SeparationContext:
         return out
 
     def spectrum_of(self, signal: np.ndarray) -> np.ndarray | None:
-        """The (..., F, T) spectrum :meth:`synthesise` made ``signal`` from, or None if it did not make that array."""
-        return self._synthesised[1] if self._synthesised and self._synthesised[0] is signal else None
+        """The (..., F, T) spectrum :meth:`synthesise` made ``signal`` from, or the ``known_stft`` spectrum when
+        ``signal`` is its very signal (the ``identity`` separator returns the mixture), else None."""
+        if self._synthesised and self._synthesised[0] is signal:
+            return self._synthesised[1]
+        if self.known_stft is not None and self.known_stft[0] is signal:
+            return self.known_stft[1]
+        return None
 
     def das_conjugate(self) -> np.ndarray:
         """(2, F) conjugate delay-and-sum weights w^H, w = d / (d^H d) of :meth:`steering`, complex64, read-only:

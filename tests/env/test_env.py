@@ -160,7 +160,7 @@ def test_render_rgb_array(make_env):
 
 def test_config_file_and_overrides(make_env):
     env = make_env(config="default", budget=4)
-    assert env.config.budget == 4 and env.config.separator == "delay-and-sum"
+    assert env.config.budget == 4 and env.config.separator == "identity"
 
 
 @pytest.mark.parametrize("options, message", [
