@@ -15,12 +15,14 @@ from hearnav import sounds
 from hearnav.env.worlds import World
 from hearnav.listening import Source
 from hearnav.physics.geometry import bearing, heading_angles
-from hearnav.separation import SeparationContext, get_separator, si_sdr
+from hearnav.env.scoring import binaural_scores
+from hearnav.separation import SeparationContext, get_separator
 
 
 @dataclass(frozen=True)
 class OcclusionResult:
-    """SI-SDR (dB) on the same window at an occluded cell and its neighbour in line of sight."""
+    """Score (dB, against the early image at each ear) on the same window at an occluded cell and its neighbour
+    in line of sight."""
 
     scene: str
     target: str
@@ -71,6 +73,6 @@ def check_scene(world: World, rng: np.random.Generator, separator: str, per_spot
                 heading, bearing = _facing(world, cell, xy)
                 win = lw.mix(cell, heading, srcs, lw.warmup)
                 est = sep(win.mixture[:, : lw.window_len], SeparationContext(fs=fs, azimuth=bearing))
-                scores.append(si_sdr(est, win.reference[: lw.window_len]))
+                scores.append(binaural_scores(win.early[:, : lw.window_len], est)[0])
             out.append(OcclusionResult(world.scene.name, world.scene.spots[spot].name, *moves[k], *scores))
     return out

@@ -1,11 +1,11 @@
 """The listening API: what a two-eared listener hears at a pose, window by window.
 
 Given a scene's responses, the sources (a spot and a dry signal each) and a time window, it returns the
-binaural mixture, each source's image at the two ears and the target reference (the target's dry signal
-delayed and scaled by its earliest arriving path, at the head centre). Mixing is FFT convolution with
-cached response spectra over the window plus everything emitted a response length before it, so the
-reverberant tail of earlier sound reaches the listener inside the window. After a move, the first
-``fade`` samples of a window cross-fade from the old pose's output to the new one's, so a move never clicks.
+binaural mixture, the target's early image and full image at the two ears (the references of the score,
+:mod:`hearnav.acoustics.early`), and optionally every source's image. Mixing is FFT convolution with cached
+response spectra over the window plus everything emitted a response length before it, so the reverberant tail
+of earlier sound reaches the listener inside the window. After a move, the first ``fade`` samples of a window
+cross-fade from the old pose's output to the new one's, so a move never clicks.
 """
 
 from __future__ import annotations
@@ -15,7 +15,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.fft as sfft
 
-from hearnav.acoustics.synthesis import FD_TAPS, fd_taps
+from hearnav.acoustics.early import cut_length, early_window, onsets
 from hearnav.acoustics.responses import Responses
 from hearnav.errors import ConfigError
 
@@ -39,15 +39,15 @@ class Window:
 
     start: int  # first sample, in emission time
     mixture: np.ndarray  # (2, n)
-    target_image: np.ndarray | None  # (2, n) the target's image at the two ears, when asked for
-    reference: np.ndarray  # (n,) the target reference
+    early: np.ndarray  # (2, n) the target's early image at the two ears: the score's reference
+    target_image: np.ndarray  # (2, n) the target's full (reverberant) image at the two ears
     images: np.ndarray | None  # (n_sources, 2, n) every source's image, when asked for
 
     def part(self, first: int, stop: int | None = None) -> Window:
         """Samples [first, stop) of this window (views), as a window starting ``first`` samples later."""
         cut = slice(first, stop)
-        return Window(self.start + first, self.mixture[..., cut], _part(self.target_image, cut),
-                      self.reference[..., cut], _part(self.images, cut))
+        return Window(self.start + first, self.mixture[..., cut], self.early[..., cut], self.target_image[..., cut],
+                      _part(self.images, cut))
 
 
 def _part(a: np.ndarray | None, cut: slice) -> np.ndarray | None:
@@ -56,10 +56,12 @@ def _part(a: np.ndarray | None, cut: slice) -> np.ndarray | None:
 
 @dataclass(frozen=True)
 class ResponseSpectra:
-    """A scene's responses on the mixing FFT grid of one window length and cross-fade, and what the target
-    reference needs: the tables :class:`ListeningWorld` mixes from (memory maps of the store, or in memory).
+    """A scene's responses on the mixing FFT grid of one window length and cross-fade, and their early parts: the
+    tables :class:`ListeningWorld` mixes from (memory maps of the store, or in memory).
 
-    Every spectrum is complex64 (single precision), the rfft of the float32 response on ``n_fft`` points.
+    Every spectrum is complex64 (single precision), the rfft of the float32 response on ``n_fft`` points. The
+    early parts (:mod:`hearnav.acoustics.early`) are float32 responses, short enough to be applied on a grid of
+    their own.
     """
 
     fs: int
@@ -68,10 +70,7 @@ class ResponseSpectra:
     window_len: int
     fade: int
     spectra: np.ndarray  # (C, H, S, 2, F) response spectra
-    references: np.ndarray  # (C, S, F) reference filter spectra (zero where the filter does not fit)
-    fits: np.ndarray  # (C, S) bool: the reference filter lies within the mix's history
-    first_delay: np.ndarray  # (C, S) float32 seconds: earliest path at the head centre (no lead)
-    first_gain: np.ndarray  # (C, S) float32 broadband amplitude of the earliest path
+    early: np.ndarray  # (C, H, S, 2, Le) float32 early parts of the responses, Le samples
 
     @staticmethod
     def fft_size(window_len: int, fade: int, length: int) -> int:
@@ -84,11 +83,10 @@ class ResponseSpectra:
         window_len, fade = check_window(window_len), int(round(fade_s * responses.fs))
         c, h, s = responses.early.shape[:3]
         n_bins = cls.fft_size(window_len, fade, responses.length) // 2 + 1
-        out = [np.empty((c, h, s, 2, n_bins), np.complex64), np.empty((c, s, n_bins), np.complex64),
-               np.empty((c, s), bool)]
-        fill_spectra(responses, window_len, fade, *out)
-        return cls(responses.fs, responses.lead, responses.length, window_len, fade, *out,
-                   responses.first_delay, responses.first_gain)
+        spectra = np.empty((c, h, s, 2, n_bins), np.complex64)
+        early = np.empty((c, h, s, 2, early_length(responses)), np.float32)
+        fill_spectra(responses, window_len, fade, spectra, early)
+        return cls(responses.fs, responses.lead, responses.length, window_len, fade, spectra, early)
 
 
 def check_window(window_len: int) -> int:
@@ -98,35 +96,30 @@ def check_window(window_len: int) -> int:
     return int(window_len)
 
 
-def fill_spectra(responses: Responses, window_len: int, fade: int, spectra: np.ndarray, references: np.ndarray,
-                 fits: np.ndarray) -> None:
-    """Write every response spectrum (C, H, S, 2, F), reference filter spectrum (C, S, F) and fit flag (C, S) of
-    a scene's responses on the mixing FFT grid, one cell at a time (the outputs may be memory maps)."""
-    h, s = responses.early.shape[1:3]
+def _responses_of(responses: Responses, cell: int) -> np.ndarray:
+    """(H, S, 2, L) float32 responses of one cell."""
+    h = responses.early.shape[1]
+    resp = np.repeat(responses.tail[cell][None].astype(np.float32), h, axis=0)
+    resp[..., : responses.early.shape[-1]] += responses.early[cell].astype(np.float32)
+    return resp
+
+
+def early_length(responses: Responses) -> int:
+    """Samples of the early parts of a scene's responses: up to the latest boundary of any (at most all)."""
+    latest = max(int(onsets(_responses_of(responses, cell)).max()) for cell in range(responses.early.shape[0]))
+    return min(cut_length(latest, responses.fs), responses.length)
+
+
+def fill_spectra(responses: Responses, window_len: int, fade: int, spectra: np.ndarray, early: np.ndarray) -> None:
+    """Write every response spectrum (C, H, S, 2, F) of a scene's responses on the mixing FFT grid and every
+    response's early part (C, H, S, 2, Le), one cell at a time (the outputs may be memory maps)."""
     n_fft = ResponseSpectra.fft_size(window_len, fade, responses.length)
+    n_early = early.shape[-1]
     for cell in range(responses.early.shape[0]):
-        resp = np.repeat(responses.tail[cell][None].astype(np.float32), h, axis=0)  # (H, S, 2, L)
-        resp[..., : responses.early.shape[-1]] += responses.early[cell].astype(np.float32)
+        resp = _responses_of(responses, cell)  # (H, S, 2, L)
         spectra[cell] = sfft.rfft(resp, n_fft, axis=-1)
-        filters = np.zeros((s, n_fft), np.float32)
-        for spot in range(s):
-            first, taps = reference_filter(responses.first_delay[cell, spot], responses.first_gain[cell, spot],
-                                           responses.fs, responses.lead)
-            fits[cell, spot] = filter_fits(first, responses.length - 1)
-            if fits[cell, spot]:
-                filters[spot, first: first + FD_TAPS] = taps
-        references[cell] = sfft.rfft(filters, axis=-1)
-
-
-def reference_filter(first_delay: float, first_gain: float, fs: int, lead: int) -> tuple[int, np.ndarray]:
-    """First tap and (FD_TAPS,) taps of a reference filter: the earliest path's gain and delay plus the lead."""
-    first, taps = fd_taps(np.asarray(float(first_delay) * fs + lead))
-    return int(first), float(first_gain) * taps
-
-
-def filter_fits(first: int, history: int) -> bool:
-    """Whether a reference filter starting at tap ``first`` lies within a mix's ``history``."""
-    return 0 <= first and first + FD_TAPS <= history + 1
+        w = early_window(n_early, onsets(resp), responses.fs)  # (H, S, Le)
+        early[cell] = resp[..., :n_early] * w[:, :, None, :].astype(np.float32)
 
 
 class ListeningWorld:
@@ -140,7 +133,10 @@ class ListeningWorld:
         self.span = self.window_len + self.fade  # samples mixed per call
         self.n_fft = ResponseSpectra.fft_size(self.window_len, self.fade, tables.length)
         self.history = tables.length - 1  # past samples each mix needs
-        self._spectra, self._references, self._fits = tables.spectra, tables.references, tables.fits
+        self._spectra, self._early = tables.spectra, tables.early
+        self.early_len = int(tables.early.shape[-1])
+        self.n_early = sfft.next_fast_len(self.span + self.early_len - 1, real=True)  # the early image's grid
+        self._buffers: dict[str, np.ndarray] = {}
 
     @classmethod
     def of(cls, responses: Responses, window_len: int, fade_s: float = FADE_S) -> ListeningWorld:
@@ -167,64 +163,60 @@ class ListeningWorld:
         many float32 rows together with vector instructions, so four rows cost about as much as one.
         """
         lo, hi = start - self.history, start + self.span
-        segs = np.zeros((_rows(len(sources)), self.n_fft), np.float32)
+        segs = self._scratch("segments", (_rows(len(sources)), self.n_fft), np.float32)
+        segs[:] = 0
         for i, src in enumerate(sources):
             a, b = max(lo, 0), min(hi, len(src.signal))
             if b > a:
                 segs[i, a - lo : b - lo] = src.signal[a:b]
         return sfft.rfft(segs, axis=-1)
 
+    def _scratch(self, name: str, shape: tuple[int, ...], dtype: type) -> np.ndarray:
+        """A work array this world reuses (its contents are not kept between calls): reusing it spares the
+        operating system mapping and zeroing fresh pages for every window."""
+        a = self._buffers.get(name)
+        if a is None or a.shape != shape:
+            a = self._buffers[name] = np.zeros(shape, dtype)
+        return a
+
     def mix(self, cell: int, heading: int, sources: list[Source], start: int, target: int = 0,
-               all_images: bool = False, seg: np.ndarray | None = None, target_image: bool = True) -> Window:
+            all_images: bool = False, seg: np.ndarray | None = None) -> Window:
         """The span [start, start + window + fade) heard at a pose, with no cross-fade.
 
-        The mixture (2 rows), the reference (1) and the target image (2, when asked for) come out of one
-        inverse FFT of a row block.
+        The mixture and the target's full image (two rows each) come out of one inverse FFT of a row block;
+        the target's early image out of one forward and one inverse FFT on the short grid of the early parts
+        (the dry target and the two ears' early parts in one row block).
         """
         seg = self.segment_spectra(sources, start) if seg is None else seg
         keep = slice(self.history, self.history + self.span)
-        n = 3 + 2 * bool(target_image)
-        out = np.empty((_rows(n), self.n_fft // 2 + 1), np.complex64)
-        out[n:] = 0  # padding rows
-        np.multiply(seg[target], self.spectrum(cell, heading, sources[target].spot), out=out[0:2])
-        if target_image:
-            out[3:5] = out[0:2]
+        out = self._scratch("mixed", (ROW_BLOCK, self.n_fft // 2 + 1), np.complex64)
+        np.multiply(seg[target], self.spectrum(cell, heading, sources[target].spot), out=out[2:4])
+        out[0:2] = out[2:4]
         for i, s in enumerate(sources):
             if i != target:
                 out[0:2] += seg[i] * self.spectrum(cell, heading, s.spot)
-        ref_spec = self.reference_spectrum(cell, sources[target].spot)
-        if ref_spec is not None:
-            np.multiply(seg[target], ref_spec, out=out[2])
-        else:
-            out[2] = 0
-        rows = sfft.irfft(out, self.n_fft, axis=-1)[:n, keep]
-        ref = rows[2] if ref_spec is not None else self.reference(cell, sources[target], start)
+        rows = sfft.irfft(out, self.n_fft, axis=-1)[:, keep]
         images = None
         if all_images:
             per_source = np.stack([seg[i] * self.spectrum(cell, heading, s.spot) for i, s in enumerate(sources)])
             images = sfft.irfft(per_source, self.n_fft, axis=-1)[..., keep]
-        return Window(start, rows[0:2], rows[3:5] if target_image else None, ref, images)
+        early = self.early_image(cell, heading, sources[target], start)
+        return Window(start, rows[0:2], early, rows[2:4], images)
 
-    def reference_spectrum(self, cell: int, spot: int) -> np.ndarray | None:
-        """(F,) complex64 spectrum of the reference filter on the mixing FFT grid, or None when the filter
-        reaches past the mix's history (the reference is then filtered in the time domain)."""
-        return self._references[cell, spot] if self._fits[cell, spot] else None
-
-    def reference(self, cell: int, source: Source, start: int) -> np.ndarray:
-        """(span,) the source's dry signal delayed and scaled by its earliest path, with the responses' lead.
-
-        The fractional delay uses the same windowed-sinc filter as the responses, so the reference is one
-        time-invariant filter of the dry signal and continuous across windows. :meth:`mix` applies it in
-        the frequency domain; this is the time-domain form.
-        """
-        t = self.tables
-        first, taps = reference_filter(t.first_delay[cell, source.spot], t.first_gain[cell, source.spot], t.fs, t.lead)
-        lo = start - first - FD_TAPS + 1  # oldest dry sample needed
-        x = np.zeros(self.span + FD_TAPS - 1, np.float64)
-        a, b = max(lo, 0), min(start + self.span - first, len(source.signal))
+    def early_image(self, cell: int, heading: int, source: Source, start: int) -> np.ndarray:
+        """(2, span) the source's early image at the two ears over [start, start + span): its dry signal through
+        the early parts of its responses (linear convolution on the early grid)."""
+        lead = self.early_len - 1
+        block = self._scratch("early", (ROW_BLOCK, self.n_early), np.float32)  # dry target, two early parts, zeros
+        a, b = max(start - lead, 0), min(start + self.span, len(source.signal))
+        block[0, : self.span + lead] = 0
         if b > a:
-            x[a - lo : b - lo] = source.signal[a:b]
-        return np.convolve(x, taps, mode="valid").astype(np.float32)
+            block[0, a - (start - lead): b - (start - lead)] = source.signal[a:b]
+        block[1:3, : self.early_len] = self._early[cell, heading, source.spot]
+        spec = sfft.rfft(block, axis=-1)
+        spec[1:3] *= spec[0]
+        spec[0] = spec[3] = 0
+        return sfft.irfft(spec, self.n_early, axis=-1)[1:3, lead: lead + self.span]
 
 
 def _rows(n: int) -> int:
@@ -240,12 +232,10 @@ def _ramp(n: int) -> np.ndarray:
 class ListeningSession:
     """Consecutive windows for one set of sources, with cross-fades between poses."""
 
-    def __init__(self, world: ListeningWorld, sources: list[Source], target: int = 0, all_images: bool = False,
-                 target_image: bool = True):
+    def __init__(self, world: ListeningWorld, sources: list[Source], target: int = 0, all_images: bool = False):
         if not 0 <= target < len(sources):
             raise ConfigError(f"target must index one of the {len(sources)} sources (got {target})")
         self.world, self.sources, self.target, self.all_images = world, list(sources), target, all_images
-        self.target_image = target_image
         self.time = world.warmup
         self._tail: Window | None = None
         self._fade_out = (1.0 - _ramp(world.fade)).astype(np.float32)
@@ -259,14 +249,13 @@ class ListeningSession:
     def peek(self, cell: int, heading: int) -> Window:
         """The current window at any pose, without moving or advancing time (no cross-fade)."""
         win = self.world.mix(cell, heading, self.sources, self.time, self.target, self.all_images,
-                                self._current_seg(), self.target_image)
+                             self._current_seg())
         return win.part(0, self.world.window_len)
 
     def listen(self, cell: int, heading: int) -> Window:
         """The current window at a pose, cross-faded from the previous pose; then advance one window."""
         w = self.world
-        span = w.mix(cell, heading, self.sources, self.time, self.target, self.all_images, self._current_seg(),
-                        self.target_image)
+        span = w.mix(cell, heading, self.sources, self.time, self.target, self.all_images, self._current_seg())
         if self._tail is not None and w.fade:
             span = _blend(self._tail, span, self._fade_out)
         out = span.part(0, w.window_len)
@@ -280,7 +269,7 @@ def _blend(old: Window, new: Window, fade_out: np.ndarray) -> Window:
     """Cross-fade the first len(fade_out) samples of ``new`` from ``old``, in place (``new`` is freshly mixed):
     old * fade_out + new * (1 - fade_out)."""
     m = len(fade_out)
-    for v, o in ((new.mixture, old.mixture), (new.reference, old.reference), (new.target_image, old.target_image),
+    for v, o in ((new.mixture, old.mixture), (new.early, old.early), (new.target_image, old.target_image),
                  (new.images, old.images)):
         if v is not None and o is not None:
             head = v[..., :m]

@@ -46,6 +46,7 @@ class Responses:
     tail: np.ndarray  # (C, S, 2, L) float16
     first_delay: np.ndarray  # (C, S) float32 seconds: earliest path at the head centre (no lead)
     first_gain: np.ndarray  # (C, S) float32 broadband amplitude of the earliest path
+    first_azimuth: np.ndarray  # (C, S) float32 radians, plan frame: the direction the earliest path arrives from
     line_of_sight: np.ndarray  # (C, S) bool: the direct path is not blocked
     rt60: np.ndarray  # (n_bands,) seconds: Schroeder T30 of the rendered responses (0: not measurable)
 
@@ -69,13 +70,14 @@ class Responses:
 
 
 def _pair_paths(images: list[room.ImageSources], receivers: np.ndarray, spots: np.ndarray, air: np.ndarray,
-                max_delay: float, c: float) -> tuple[PathSet, np.ndarray, np.ndarray, np.ndarray]:
-    """Visible early paths of every (cell, spot) pair, ordered cell-major; plus each pair's earliest path.
+                max_delay: float, c: float) -> tuple[PathSet, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Visible early paths of every (cell, spot) pair, ordered cell-major; plus each pair's earliest path (delay,
+    gain, horizontal direction of arrival in the plan frame) and line of sight.
 
-    A pair with no visible early path takes the straight line's delay and 1/r gain for its reference.
+    A pair with no visible early path takes the straight line's delay, 1/r gain and direction.
     """
     cells = np.arange(len(receivers))
-    vectors, gains, owner, first_delay, first_gain, los = [], [], [], [], [], []
+    vectors, gains, owner, first_delay, first_gain, first_azimuth, los = [], [], [], [], [], [], []
     n_spots = len(images)
     for qi, cell in enumerate(cells):
         for s, ims in enumerate(images):
@@ -92,9 +94,11 @@ def _pair_paths(images: list[room.ImageSources], receivers: np.ndarray, spots: n
             straight = max(float(np.linalg.norm(spots[s] - receivers[cell])), 0.1)
             first_delay.append(r[k] / c if k >= 0 else straight / c)
             first_gain.append(float(g[k].mean()) if k >= 0 else 1.0 / straight)
+            arrival = vec[k] if k >= 0 else spots[s] - receivers[cell]  # from the listener towards the source
+            first_azimuth.append(float(np.arctan2(arrival[1], arrival[0])))
             los.append(bool(np.any(ims.orders[vis][keep] == 0)))
     paths = PathSet(np.concatenate(vectors), np.concatenate(gains), np.concatenate(owner), len(cells) * n_spots)
-    return paths, np.asarray(first_delay), np.asarray(first_gain), np.asarray(los)
+    return paths, np.asarray(first_delay), np.asarray(first_gain), np.asarray(first_azimuth), np.asarray(los)
 
 
 def _decay_rt60(hist: np.ndarray, bin_s: float) -> np.ndarray:
@@ -180,7 +184,7 @@ def build_responses(scene: Scene, grid: Grid, settings: AcousticSettings,
     length = int(np.ceil(min(settings.max_response_s, reach) * fs)) + RESPONSE_LEAD
     max_delay = (length - RESPONSE_LEAD - FD_TAPS) / fs - 2 * settings.head_radius / c
     air = room.air_coefficients(settings)
-    paths, first_delay, first_gain, los = _pair_paths(images, receivers, spots, air, max_delay, c)
+    paths, first_delay, first_gain, first_azimuth, los = _pair_paths(images, receivers, spots, air, max_delay, c)
     delays = np.linalg.norm(paths.vectors, axis=1) / c
     early_len = min(length, int(np.ceil((delays.max(initial=0) + settings.head_radius / c) * fs)) +
                     RESPONSE_LEAD + FD_TAPS + 8)
@@ -206,5 +210,6 @@ def build_responses(scene: Scene, grid: Grid, settings: AcousticSettings,
     measured = measured_rt60(early, tail, probe_cells[:MEASURED_CELLS], fs)
     return Responses(fs, RESPONSE_LEAD, grid.centres, tuple(s.name for s in scene.spots), early, tail,
                      first_delay.reshape(n_c, n_s).astype(np.float32), first_gain.reshape(n_c, n_s).astype(np.float32),
+                     first_azimuth.reshape(n_c, n_s).astype(np.float32),
                      los.reshape(n_c, n_s), measured)
 

@@ -1,4 +1,5 @@
-"""Audio of benchmark episodes: mixture at both ears, separator estimate and target reference, as WAV files.
+"""Audio of benchmark episodes: mixture, separator estimate and target reference (its early image) at both ears,
+as two-channel WAV files.
 
 Every file is normalised to a peak of -1 dBFS. Start playback quietly: simulated rooms can still be loud.
 """
@@ -30,8 +31,8 @@ def save_episode_audio(folder: Path, policy: str, index: int, windows: list[dict
     files.make_folder(folder, OUTPUT)
     parts = {
         "mixture": np.concatenate([w["mixture"] for w in windows], axis=1).T,
-        "estimate": np.concatenate([w["estimate"] for w in windows]),
-        "reference": np.concatenate([w["reference"] for w in windows]),
+        "estimate": np.concatenate([w["estimate"] for w in windows], axis=-1).T,
+        "reference": np.concatenate([w["reference"] for w in windows], axis=-1).T,
     }
     out = []
     for name, data in parts.items():

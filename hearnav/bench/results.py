@@ -69,7 +69,9 @@ class EpisodeResult:
     exited (SystemExit 3)``), ``timed out after 600 s`` or ``worker died (exit code 7)``; rows of the last
     two hold no scores, since the episode never returned.
 
-    Scores are SI-SDR in dB. ``normalised_gain`` is gain / (oracle bound - start score), ``None`` when the
+    Scores are in dB: the mean over the two ears of the SI-SDR against the target's early image at that ear;
+    ``*_full_*`` against its full reverberant image (separation only); ``*_input_*`` of the unprocessed
+    mixture. ``normalised_gain`` is gain / (oracle bound - start score), ``None`` when the
     bound is unknown or not above the start. ``extra`` keeps fields this version does not know (rows written
     by other versions), so they survive a round trip. ``run_key`` is the result key of the run that wrote
     the row (:mod:`hearnav.bench.keys`).
@@ -84,8 +86,11 @@ class EpisodeResult:
     scene: str | None = None
     oracle_si_sdr_db: float | None = None
     start_si_sdr_db: float | None = None
-    start_ear_si_sdr_db: float | None = None
+    start_input_si_sdr_db: float | None = None
+    start_full_si_sdr_db: float | None = None
+    start_input_full_si_sdr_db: float | None = None
     final_si_sdr_db: float | None = None
+    final_full_si_sdr_db: float | None = None
     best_si_sdr_db: float | None = None
     gain_db: float | None = None
     episode_return: float | None = None
@@ -434,10 +439,14 @@ def read_manifest(directory: str | os.PathLike) -> dict | None:
     return value
 
 
+def _shown_key(found: object) -> str:
+    """A result key read from a file, as shown in a message (bounded when it is not a key)."""
+    return found if isinstance(found, str) and _KEY_TEXT.fullmatch(found) else short_repr(found)
+
+
 def _refusal(where: str, found: object, expected: str, detail: str = "") -> ResultsError:
     """The one-line refusal to add results to a folder that holds results under another key."""
-    shown = found if isinstance(found, str) and _KEY_TEXT.fullmatch(found) else short_repr(found)
-    return ResultsError(f"{where} holds results of another suite or scene version (key {shown}, "
+    return ResultsError(f"{where} holds results of another suite or scene version (key {_shown_key(found)}, "
                         f"expected {expected}{detail}): use a new --out folder")
 
 
@@ -498,6 +507,12 @@ def check_manifest(directory: str | os.PathLike, manifest: Mapping[str, Any]) ->
         changed = changed_parts(stored.get("key_parts"), manifest.get("key_parts", {}))
         listed = ", ".join(changed)  # names from a stored file: bounded like short_repr
         detail = f"; changed: {listed if len(listed) <= 120 else listed[:117] + '...'}" if changed else ""
+        old_code, new_code = stored.get("code_version"), manifest.get("code_version")
+        if new_code is not None and old_code != new_code:
+            raise ResultsError(f"{directory} holds results of another hearnav version, scored differently "
+                               f"(code {short_repr(old_code, 40)}, expected {new_code}; key "
+                               f"{_shown_key(stored.get('run_key'))}, expected {key}): scores of different "
+                               f"versions cannot be compared; use a new --out folder")
         raise _refusal(str(directory), stored.get("run_key"), key, detail)
     rows_path = Path(directory) / EPISODES_FILE
     check_rows(rows_path, read_rows(rows_path), key)

@@ -78,7 +78,8 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult
     start = info["si_sdr_db"]
     result = EpisodeResult(policy=name, privileged=privileged, episode_index=task.index, episode_seed=task.seed,
                            oracle_si_sdr_db=task.oracle, scene=info["scene"], start_si_sdr_db=start,
-                           start_ear_si_sdr_db=info["ear_si_sdr_db"])
+                           start_input_si_sdr_db=info["input_si_sdr_db"], start_full_si_sdr_db=info["full_si_sdr_db"],
+                           start_input_full_si_sdr_db=info["input_full_si_sdr_db"])
     start_xy = (info["pose"]["x"], info["pose"]["y"])
     best, ret, collisions, path, steps = start, 0.0, 0, 0.0, 0
     audio = [] if task.audio_dir else None
@@ -102,6 +103,7 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult
     except BaseException as exc:  # the policy's fault (workers ignore SIGINT): record it, never end the run
         result.status, result.error = "failed", describe(exc)
     final = info["si_sdr_db"]
+    result.final_full_si_sdr_db = info["full_si_sdr_db"]
     gain = final - start
     span = None if task.oracle is None else task.oracle - start
     result.final_si_sdr_db, result.best_si_sdr_db, result.gain_db, result.episode_return = final, best, gain, ret

@@ -21,21 +21,19 @@ from hearnav.env.episode import (
 )
 from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor, band_edges
 from hearnav.env.privileged import PrivilegedView
+from hearnav.env.scoring import SILENT_ENERGY, binaural_scores, window_scores
 from hearnav.env.worlds import World, get_maps, get_world, scene_list
 from hearnav.errors import ConfigError, HearnavError, did_you_mean, short_repr
 from hearnav.listening import FADE_S, ListeningSession, Source, Window
 from hearnav.separation import SeparationContext, get_separator
-from hearnav.separation.metrics import si_sdrs_unchecked
 from hearnav.separation.stft import stft
 
-__all__ = ["ACTION_NAMES", "Action", "HearNavEnv", "Heard", "InvalidActionError", "RESET_OPTIONS",
+__all__ = ["ACTION_NAMES", "Action", "HearNavEnv", "Heard", "InvalidActionError", "RESET_OPTIONS", "SILENT_ENERGY",
            "check_reset_options", "scored_part"]
 
 MAX_DISTANCE = 50.0
 #: Windows the start may be delayed by while the target is silent.
 MAX_LEAD_IN = 4
-#: A reference with less energy than this is silent: no SI-SDR exists for its window.
-SILENT_ENERGY = 1e-12
 
 
 class InvalidActionError(HearnavError, ValueError):
@@ -80,16 +78,16 @@ def scored_part(window: Window, fade: int) -> Window:
 
 
 def _scores(reference: np.ndarray, *estimates: np.ndarray) -> list[float | None]:
-    """SI-SDR in dB of each (finite) estimate against one reference, or None for each when the reference is
-    silent."""
-    scores = si_sdrs_unchecked(*estimates, reference=reference, silent=SILENT_ENERGY)
+    """Score in dB of each (finite, (2, m)) estimate against a (2, m) reference (:func:`binaural_scores`), or
+    None for each when an ear of the reference is silent."""
+    scores = binaural_scores(reference, *estimates)
     return [None] * len(estimates) if scores is None else scores
 
 
 @dataclass(frozen=True)
 class Heard:
     """The last window heard: the whole window (its cross-fade included), its scored part and the separator's
-    (m,) estimate of the target over that part."""
+    (2, m) estimate of the target at each ear over that part."""
 
     window: Window
     scored: Window
@@ -101,9 +99,12 @@ class HearNavEnv(gym.Env):
 
     Each episode places a target sound and 1-3 distractors at named spots of a scene; the sources play
     continuously. Every step the listener acts, then hears the next ``step_s`` seconds at its new pose. The
-    built-in separator (``separator``, steered at the target spot's direction) extracts the target from the
-    binaural mixture, and the reward is the change of its SI-SDR (Le Roux et al., 2019) against the target
-    reference (the target's dry signal delayed and scaled by its earliest path at the head centre).
+    built-in separator (``separator``, steered at the direction the target's earliest path arrives from: the spot's
+    in line of sight, a reflection's when the straight line is blocked) estimates the target at
+    each ear from the binaural mixture. The score is the mean over the two ears of the SI-SDR (Le Roux et al.,
+    2019) of that ear's estimate against that ear's early image of the target (its image through the response
+    cut 50 ms after the first arrival, the C50 split of ISO 3382-1; :mod:`hearnav.acoustics.early`), and the
+    reward is the change of the score.
 
     ## Action space
     ``Discrete(4)``, the values of :class:`hearnav.env.actions.Action`:
@@ -122,7 +123,7 @@ class HearNavEnv(gym.Env):
     | key | shape | content | bounds |
     |---|---|---|---|
     | binaural | (5, S, B) | left level dB, right level dB, ILD dB, cos IPD, sin IPD of the current window after its cross-fade | [-120, 40], [-60, 60], [-1, 1] |
-    | estimate | (1, S, B) | level dB of the separator's current estimate | [-120, 40] |
+    | estimate | (2, S, B) | level dB of the separator's current estimate at the left and right ear | [-120, 40] |
 
     Levels are Welch band levels (``hearnav.env.features``): sqrt-Hann frames of 512 samples every 256 samples
     (every other frame of the separator's STFT, which the step computes once), averaged over each of the S
@@ -136,7 +137,7 @@ class HearNavEnv(gym.Env):
     ``hearnav.env.FlatObservation`` flattens the dictionary into one vector.
 
     ## Reward
-    ``si_sdr_after - si_sdr_before`` in dB: the separator's SI-SDR on the window just heard minus its SI-SDR on
+    ``si_sdr_after - si_sdr_before`` in dB: the separator's score on the window just heard minus its score on
     the previous window (the first window is heard at reset). A window is scored after its first 20 ms, the
     cross-fade from the previous pose, so a pose's score at a given time does not depend on the path to it. The rewards of an episode sum to the final minus
     the starting SI-SDR. ``reward_clip`` clips each reward to +/- that many dB.
@@ -146,11 +147,14 @@ class HearNavEnv(gym.Env):
 
     ## Info
     At reset, ``embodiment`` (:class:`hearnav.env.embodiment.Embodiment`: sampling rate, window, headings, head
-    radius, speed of sound, band edges, STFT; also ``env.unwrapped.embodiment``). At reset and every step, ``si_sdr_db`` (separator), ``ear_si_sdr_db`` (the unprocessed ear nearer the target: the input
+    radius, speed of sound, band edges, STFT; also ``env.unwrapped.embodiment``). At reset and every step,
+    ``si_sdr_db`` (the separator's score against the early image at each ear), ``full_si_sdr_db`` (its
+    separation-only score against the full reverberant image at each ear), ``input_si_sdr_db`` and
+    ``input_full_si_sdr_db`` (the unprocessed mixture at each ear against the same references: the input
     reference), ``pose`` (cell, x, y, heading index and degrees), ``collided``, ``target_active``, ``step``,
     ``scene`` and ``sources`` (role, spot, category, pool, voice, take, level). No wall-clock values.
     A window in which the target is silent (an alarm's pause) has no SI-SDR: ``target_active`` is False and
-    both scores keep their previous values, so the reward is 0. An episode whose target starts in a pause
+    all scores keep their previous values, so the reward is 0. An episode whose target starts in a pause
     begins with the first window in which it sounds (at most 4 windows later).
 
     ## Privileged access
@@ -183,7 +187,6 @@ class HearNavEnv(gym.Env):
         cfg = self.config
         check_categories(cfg)
         self.separator = get_separator(cfg.separator)
-        self._ear = get_separator("ear")
         self.scene_names = scene_list(cfg.scenes, cfg.procedural_pool)
         self.fs = cfg.acoustics.fs
         self.window_len = int(round(cfg.step_s * self.fs))
@@ -203,7 +206,7 @@ class HearNavEnv(gym.Env):
         binaural_hi = np.array([hi, hi, ILD_DB[1], 1, 1], np.float32)[:, None, None] * np.ones((1, seg, bands), np.float32)
         self.observation_space = spaces.Dict({
             "binaural": spaces.Box(binaural_lo, binaural_hi, dtype=np.float32),
-            "estimate": level(1),
+            "estimate": level(2),
             "map": spaces.Box(0.0, 1.0, (2, cfg.patch_size, cfg.patch_size), np.float32),
             "target": spaces.Box(np.array([0, -1, -1], np.float32), np.array([MAX_DISTANCE, 1, 1], np.float32),
                                  dtype=np.float32),
@@ -233,7 +236,7 @@ class HearNavEnv(gym.Env):
         n = world.listening.signal_length(self.config.budget + 1 + MAX_LEAD_IN)
         signals = dry_signals(plan, n, self.fs)
         sources = [Source(p.spot, x) for p, x in zip(plan.sources, signals)]
-        self._session = ListeningSession(world.listening, sources, target=0, target_image=self.separator.privileged)
+        self._session = ListeningSession(world.listening, sources, target=0)
         self.cell, self.heading = plan.start_cell, plan.start_heading
         self.steps = 0
         self._path = [(self.cell, self.heading)]
@@ -286,10 +289,10 @@ class HearNavEnv(gym.Env):
         estimate = self.separator(scored.mixture, ctx, trusted=True)
         self._heard = Heard(window, scored, estimate)
         self._estimate_spec = ctx.spectrum_of(estimate)
-        score, ear = _scores(scored.reference, estimate, self._ear(scored.mixture, ctx, trusted=True))
-        self.target_active = score is not None
-        if score is not None:
-            self.si_sdr_db, self.ear_si_sdr_db = score, ear
+        scores = window_scores(estimate, scored.mixture, scored.early, scored.target_image)
+        self.target_active = scores is not None
+        if scores is not None:
+            self.si_sdr_db, self.full_si_sdr_db, self.input_si_sdr_db, self.input_full_si_sdr_db = scores
 
     # -- separation ----------------------------------------------------------------------------------------------
 
@@ -300,18 +303,20 @@ class HearNavEnv(gym.Env):
 
     def context(self, cell: int, heading: int, window: Window | None = None,
                 known_stft: tuple[np.ndarray, np.ndarray] | None = None) -> SeparationContext:
-        """The separator's side information at a pose (the true target image only for privileged separators)."""
-        image = window.target_image if (window is not None and self.separator.privileged) else None
+        """The separator's side information at a pose: the bearing the target's earliest path arrives from (its
+        spot's bearing in line of sight; a reflection's when the straight line is blocked) with the delay-and-sum
+        weights towards it, and the target's early image only for privileged separators."""
+        image = window.early if (window is not None and self.separator.privileged) else None
         spot, poses = self._spot_ids[0], self._poses
-        return SeparationContext(fs=self.fs, azimuth=float(poses.bearing[cell, heading, spot]), target_image=image,
+        return SeparationContext(fs=self.fs, azimuth=float(poses.arrival[cell, heading, spot]), target_image=image,
                                  known_stft=known_stft, das=poses.das[cell, heading, spot],
                                  radius=self.config.acoustics.head_radius, c=self.config.acoustics.speed_of_sound)
 
     def score_window(self, window: Window, cell: int, heading: int,
                      ctx: SeparationContext | None = None) -> tuple[np.ndarray, float | None]:
-        """The separator's estimate of the target in a window heard at a pose, and its SI-SDR in dB.
+        """The separator's (2, m) estimate of the target in a window heard at a pose, and its score in dB.
 
-        The score is None when the target is silent in the window (its reference has no energy).
+        The score is None when the target is silent in the window (its early image has no energy).
         """
         window = scored_part(window, self._fade)
         return self._score_scored(window, ctx or self.context(cell, heading, window))
@@ -319,7 +324,7 @@ class HearNavEnv(gym.Env):
     def _score_scored(self, window: Window, ctx: SeparationContext) -> tuple[np.ndarray, float | None]:
         """:meth:`score_window` of a window already cut to its scored part."""
         estimate = self.separator(window.mixture, ctx, trusted=True)  # our own finite mixture and context
-        return estimate, _scores(window.reference, estimate)[0]
+        return estimate, _scores(window.early, estimate)[0]
 
     def peek(self, cell: int, heading: int) -> Window:
         """The window the next step will hear, as heard at any pose (no cross-fade; nothing moves or advances).
@@ -343,9 +348,10 @@ class HearNavEnv(gym.Env):
     def _obs(self) -> dict[str, np.ndarray]:
         dist, bearing = self._bearing
         if self._estimate_spec is not None:  # the separator synthesised through the context (every built-in)
-            binaural, estimate = self.features.observe(self._spec, self._estimate_spec)
+            binaural, estimate = self.features.observe(self._spec, *self._estimate_spec)
         else:
-            binaural, estimate = self.features.binaural(self._spec), self.features.mono_signal(self._heard.estimate)
+            binaural = self.features.binaural(self._spec)
+            estimate = np.concatenate([self.features.mono_signal(ear) for ear in self._heard.estimate])
         return {
             "binaural": binaural,
             "estimate": estimate,
@@ -363,7 +369,9 @@ class HearNavEnv(gym.Env):
         x, y = grid.centres[self.cell].tolist()
         return {
             "si_sdr_db": float(self.si_sdr_db),
-            "ear_si_sdr_db": float(self.ear_si_sdr_db),
+            "full_si_sdr_db": float(self.full_si_sdr_db),
+            "input_si_sdr_db": float(self.input_si_sdr_db),
+            "input_full_si_sdr_db": float(self.input_full_si_sdr_db),
             "pose": {"cell": int(self.cell), "x": x, "y": y, "heading": int(self.heading),
                      "heading_deg": math.degrees(grid.heading_angle(self.heading))},
             "collided": bool(self.collided),

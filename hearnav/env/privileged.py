@@ -50,7 +50,7 @@ class PrivilegedView:
         return next_pose(self.grid, cell, heading, action)[:2]
 
     def score(self, cell: int, heading: int) -> float:
-        """The separator's SI-SDR (dB) at a pose for the window the next step will hear, without moving.
+        """The separator's score (dB) at a pose for the window the next step will hear, without moving.
 
         Where the target is silent in that window there is no SI-SDR; the current score is returned, as the
         environment would keep it.
@@ -69,7 +69,7 @@ class PrivilegedView:
 
     def last_window(self) -> dict[str, np.ndarray]:
         """What was heard in the last window: the binaural mixture (2, n), and over its scored part the
-        separator's estimate (m,) and the target reference (m,)."""
+        separator's estimate (2, m), the target's early image (2, m, the reference) and its full image (2, m)."""
         heard = self._env.heard
         return {"mixture": heard.window.mixture.copy(), "estimate": np.asarray(heard.estimate).copy(),
-                "reference": heard.scored.reference.copy()}
+                "reference": heard.scored.early.copy(), "full_image": heard.scored.target_image.copy()}

@@ -1,7 +1,7 @@
 """Separation of one target sound from a binaural mixture, and the SI-SDR that scores it.
 
-Importing the package registers the built-in separators (``ear``, ``delay-and-sum``, ``mvdr``,
-``spatial-mask`` and the privileged ``oracle-mask``).
+Importing the package registers the built-in separators (``identity``, ``delay-and-sum``, ``mvdr``, ``mwf``,
+``spatial-mask`` and the privileged ``oracle-mask``), each binaural in and binaural out.
 """
 
 from hearnav.separation import separators as _builtin  # noqa: F401  (registers the built-ins)

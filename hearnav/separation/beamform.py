@@ -8,7 +8,14 @@ References
 ----------
 - Delay-and-sum (matched filter): w = d / (d^H d) (e.g. Van Trees, *Optimum Array Processing*, 2002).
 - J. Capon, "High-resolution frequency-wavenumber spectrum analysis", Proc. IEEE 57(8), 1969:
-  w = R^-1 d / (d^H R^-1 d) (MVDR; MPDR when R is the covariance of the mixture).
+  w = R^-1 d / (d^H R^-1 d) (MVDR when R is the noise covariance; MPDR when it is the mixture's, which cancels
+  a reverberant target: the separators give MVDR a noise covariance estimated without the target).
+- E. Hadad, S. Doclo & S. Gannot, IEEE/ACM TASLP 24(3), 2016: the binaural MVDR's output at ear e is d_e w^H X
+  (:func:`to_ears`), which keeps the target's interaural transfer function d_L / d_R.
+- K. U. Simmer, J. Bitzer & C. Marro, "Post-filtering techniques", in *Microphone Arrays* (Springer 2001): the
+  multichannel Wiener filter of a rank-one target is the MVDR followed by a single-channel Wiener gain
+  (:func:`mwf_gain`); S. Doclo & M. Moonen, IEEE TSP 50(9), 2002; Cornelis et al., IEEE TASLP 18(2), 2010
+  (binaural MWF: one such filter per ear, here the same MVDR output scaled by d_e).
 """
 
 from __future__ import annotations
@@ -48,6 +55,63 @@ def spatial_covariance(spec: np.ndarray) -> np.ndarray:
     (F, 2, 2) Hermitian R[f] = (1/T) sum_t X(f, t) X(f, t)^H.
     """
     return np.einsum("ift,jft->fij", spec, np.conj(spec)) / spec.shape[-1]
+
+
+def masked_covariance(spec: np.ndarray, weights: np.ndarray) -> np.ndarray:
+    """Per-bin spatial covariance of the part of a mixture a mask gives to the noise: a noise covariance
+    estimated without the target.
+
+    Parameters
+    ----------
+    spec : (2, F, T) ear spectra.
+    weights : (F, T) weights in [0, 1], the share of each time-frequency bin that is noise (1 - a target mask).
+
+    Returns
+    -------
+    (F, 2, 2) Hermitian R_n[f] = (1/T) sum_t w(f, t) X(f, t) X(f, t)^H: the mixture's covariance
+    (:func:`spatial_covariance`) with each bin counted by its noise share, so a bin the mask gives wholly to the
+    target adds nothing.
+    """
+    w = np.asarray(weights, dtype=spec.real.dtype)
+    return np.einsum("ft,ift,jft->fij", w, spec, np.conj(spec)) / spec.shape[-1]
+
+
+def mwf_gain(y: np.ndarray, w: np.ndarray, noise: np.ndarray) -> np.ndarray:
+    """Wiener gain after an MVDR: the rank-one multichannel Wiener filter is w times this gain per bin.
+
+    Parameters
+    ----------
+    y : (F, T) MVDR output spectrum.
+    w : (F, 2) its weights.
+    noise : (F, 2, 2) the noise covariance they were computed from.
+
+    Returns
+    -------
+    (F,) gains phi_s / (phi_s + phi_r) in [0, 1]: phi_r = w^H R_n w the residual noise power at the output,
+    phi_s = max(mean_t |Y|^2 - phi_r, 0) the target power (0 where both are zero).
+    """
+    residual = np.einsum("fi,fij,fj->f", np.conj(w), noise, w).real
+    target = np.maximum(np.mean(y.real ** 2 + y.imag ** 2, axis=-1) - residual, 0.0)
+    total = target + residual
+    return np.divide(target, total, out=np.zeros_like(total), where=total > 0).astype(y.real.dtype)
+
+
+def to_ears(d: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """A beamformer output put back at each ear through the target's relative transfer function.
+
+    Parameters
+    ----------
+    d : (F, 2) steering vector (relative to the head centre) the beamformer is distortionless towards.
+    y : (F, T) output spectrum.
+
+    Returns
+    -------
+    (2, F, T) spectra d_e Y, in the precision of ``y`` (a view of a frame-major array, as
+    :func:`hearnav.separation.stft.stft` makes, when ``y`` is one).
+    """
+    frames = np.swapaxes(y, -1, -2)  # (T, F): contiguous bins for hearnav's stft output
+    per_ear = np.ascontiguousarray(np.swapaxes(d, 0, 1), dtype=y.dtype)  # (2, F), contiguous: a fast product
+    return np.swapaxes(per_ear[:, None, :] * frames[None], -1, -2)
 
 
 def mvdr_weights(cov: np.ndarray, d: np.ndarray, loading: float = LOADING) -> np.ndarray:

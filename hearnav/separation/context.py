@@ -32,8 +32,9 @@ class SeparationContext:
     azimuth : target direction relative to the listener's heading, radians, counter-clockwise
         (0 straight ahead, +pi/2 to the left), horizontal plane.
     n_fft, hop : STFT frame and hop in samples (sqrt-Hann window; hop divides n_fft).
-    target_image : optional privileged (2, n) image of the target at the two ears; only separators
-        registered with ``privileged=True`` ever see it (the registry hides it from the others).
+    target_image : optional privileged (2, n) early image of the target at the two ears (the score's
+        reference); only separators registered with ``privileged=True`` ever see it (the registry hides it
+        from the others).
     radius, c : head radius (m) and speed of sound (m/s) of the head model the steering vector uses.
     known_stft : optional ``(signal, spectrum)`` pair the caller has already transformed with these STFT
         settings (the environment's features need the mixture's STFT too); :meth:`stft` returns the spectrum
@@ -57,6 +58,7 @@ class SeparationContext:
     das: np.ndarray | None = field(default=None, compare=False, repr=False)
     _synthesised: list = field(default_factory=list, init=False, compare=False, repr=False)
     _steering: list = field(default_factory=list, init=False, compare=False, repr=False)
+    _given_das: bool = field(default=False, init=False, compare=False, repr=False)
 
     def __post_init__(self) -> None:
         for name, value in (("fs", self.fs), ("azimuth", self.azimuth), ("radius", self.radius), ("c", self.c)):
@@ -73,6 +75,7 @@ class SeparationContext:
                 raise ConfigError(f"SeparationContext.target_image must be a (2, n) array, got shape {shape}")
         if self.known_stft is not None:
             self._check_known_stft()
+        object.__setattr__(self, "_given_das", self.das is not None)
         if self.das is None:
             w = das_conjugates(np.array([float(self.azimuth)]), self._freqs(), float(self.radius), float(self.c))[0]
             w.flags.writeable = False
@@ -106,7 +109,7 @@ class SeparationContext:
         return stft(x, self.n_fft, self.hop)
 
     def synthesise(self, spec: np.ndarray, n: int) -> np.ndarray:
-        """(n,) float32 signal of an (F, T) output spectrum (:func:`hearnav.separation.stft.istft`).
+        """(..., n) float32 signal of an (..., F, T) output spectrum (:func:`hearnav.separation.stft.istft`).
 
         The context remembers the pair, so a caller that needs the estimate's spectrum too (the environment's
         features) can take it from :meth:`spectrum_of` instead of transforming the estimate again.
@@ -116,8 +119,13 @@ class SeparationContext:
         return out
 
     def spectrum_of(self, signal: np.ndarray) -> np.ndarray | None:
-        """The (F, T) spectrum :meth:`synthesise` made ``signal`` from, or None if it did not make that array."""
-        return self._synthesised[1] if self._synthesised and self._synthesised[0] is signal else None
+        """The (..., F, T) spectrum :meth:`synthesise` made ``signal`` from, or the ``known_stft`` spectrum when
+        ``signal`` is its very signal (the ``identity`` separator returns the mixture), else None."""
+        if self._synthesised and self._synthesised[0] is signal:
+            return self._synthesised[1]
+        if self.known_stft is not None and self.known_stft[0] is signal:
+            return self.known_stft[1]
+        return None
 
     def das_conjugate(self) -> np.ndarray:
         """(2, F) conjugate delay-and-sum weights w^H, w = d / (d^H d) of :meth:`steering`, complex64, read-only:
@@ -126,10 +134,15 @@ class SeparationContext:
 
     def steering(self) -> np.ndarray:
         """(F, 2) steering vector of the target direction on the STFT bins (read-only; computed on first use from
-        the head model, :func:`hearnav.physics.steering.steering_vector`)."""
+        the head model, :func:`hearnav.physics.steering.steering_vector`, or, when the context was given its
+        delay-and-sum weights w^H, from them: w = d / (d^H d) gives d = w / (w^H w), in single precision)."""
         if not self._steering:
-            d = np.ascontiguousarray(steering_vector(float(self.azimuth), self._freqs(), float(self.radius),
-                                                     float(self.c)))
+            if self._given_das:
+                w = np.conj(self.das.T)
+                d = np.ascontiguousarray(w / np.sum(w.real ** 2 + w.imag ** 2, axis=-1, keepdims=True))
+            else:
+                d = np.ascontiguousarray(steering_vector(float(self.azimuth), self._freqs(), float(self.radius),
+                                                         float(self.c)))
             d.flags.writeable = False
             self._steering.append(d)
         return self._steering[0]

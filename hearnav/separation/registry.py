@@ -1,8 +1,8 @@
 """The registry of separators.
 
 A separator is a callable ``separator(mixture, ctx) -> estimate`` taking a (2, n) binaural mixture (index 0 the
-left ear) and a :class:`~hearnav.separation.context.SeparationContext`, and returning an (n,) estimate of the
-target at the head centre. :func:`get_separator` returns it wrapped in a :class:`Separator`, which checks the
+left ear) and a :class:`~hearnav.separation.context.SeparationContext`, and returning a (2, n) estimate of the
+target at each ear. :func:`get_separator` returns it wrapped in a :class:`Separator`, which checks the
 input and the output (casting it to float32) and hides ``ctx.target_image`` from separators that are not
 privileged.
 """
@@ -31,7 +31,7 @@ class Separator:
     privileged: bool = False
 
     def __call__(self, mixture: np.ndarray, ctx: SeparationContext, *, trusted: bool = False) -> np.ndarray:
-        """Separate the target from a (2, n) mixture; returns an (n,) float32 estimate.
+        """Separate the target from a (2, n) mixture; returns a (2, n) float32 estimate (one row per ear).
 
         ``trusted=True`` is the fast path for callers that built the mixture and the context themselves (the
         environment): it skips the input checks. The target image is hidden from separators that are not
@@ -41,21 +41,21 @@ class Separator:
         ------
         SeparatorError
             The mixture is not a finite (2, n) array, ``ctx`` is not a SeparationContext, or the separator
-            returned something other than a finite (n,) array (after the cast to float32).
+            returned something other than a finite (2, n) array (after the cast to float32).
         """
         mix = mixture if trusted else self._checked_input(mixture, ctx)
         if not self.privileged and ctx.target_image is not None:
             ctx = dataclasses.replace(ctx, target_image=None)
         out = np.asarray(self.fn(mix, ctx))
         n = mix.shape[1]
-        if out.shape != (n,):
-            raise SeparatorError(f"separator {self.name!r} must return a finite ({n},) estimate, got shape "
-                                 f"{out.shape}")
+        if out.shape != (2, n):
+            raise SeparatorError(f"separator {self.name!r} must return a finite (2, {n}) estimate (the target at "
+                                 f"the left and right ear), got shape {out.shape}; return one row per ear")
         out = out.astype(np.float32, copy=False)
         bad = np.count_nonzero(~np.isfinite(out))
         if bad:
-            raise SeparatorError(f"separator {self.name!r} must return a finite ({n},) estimate, got {bad} NaN or "
-                                 f"infinite samples")
+            raise SeparatorError(f"separator {self.name!r} must return a finite (2, {n}) estimate, got {bad} NaN "
+                                 f"or infinite samples")
         return out
 
     def _checked_input(self, mixture: np.ndarray, ctx: SeparationContext) -> np.ndarray:
@@ -89,7 +89,7 @@ def register_separator(name: str, fn: SeparatorFn | None = None, *, privileged: 
     Parameters
     ----------
     name : a plug-in name (:data:`hearnav.plugins.NAME`).
-    fn : ``fn(mixture (2, n), ctx) -> (n,)``.
+    fn : ``fn(mixture (2, n), ctx) -> (2, n)``: the target at the left and right ear.
     privileged : whether the separator reads ``ctx.target_image`` (an oracle); defaults to the function's
         own ``privileged`` attribute, else False.
 

@@ -1,4 +1,5 @@
-"""Where each spot of a scene lies from every pose, and the delay-and-sum weights towards it (for the store)."""
+"""Where each spot of a scene lies from every pose, where its earliest path arrives from, and the delay-and-sum
+weights towards that arrival (for the store)."""
 
 from __future__ import annotations
 
@@ -29,13 +30,32 @@ def spot_directions(grid: Grid, spots_xy: np.ndarray) -> tuple[np.ndarray, np.nd
     return np.hypot(d[..., 0], d[..., 1]), bearing
 
 
+def arrival_bearings(grid: Grid, first_azimuth: np.ndarray) -> np.ndarray:
+    """Bearing of each spot's earliest arriving path from each pose: the direction a separator steers at.
+
+    In line of sight it is the spot's own bearing; when the straight line is blocked it is the direction of the
+    earliest path that reaches the listener (a reflection), which the responses know.
+
+    Parameters
+    ----------
+    grid : the scene's grid (C cells, H headings).
+    first_azimuth : (C, S) radians, plan frame (``Responses.first_azimuth``).
+
+    Returns
+    -------
+    (C, H, S) radians in [-pi, pi), counter-clockwise from the heading.
+    """
+    az = np.asarray(first_azimuth, np.float64)[:, None, :]
+    return bearing_of(np.cos(az), np.sin(az), heading_angles(grid.n_headings)[None, :, None])
+
+
 def fill_das(bearing: np.ndarray, fs: float, n_fft: int, radius: float, c: float, out: np.ndarray) -> None:
     """Write the conjugate delay-and-sum weights towards every bearing (:func:`das_conjugates`) on the bins of an
     ``n_fft`` STFT.
 
     Parameters
     ----------
-    bearing : (C, H, S) radians, counter-clockwise from the heading (:func:`spot_directions`).
+    bearing : (C, H, S) radians, counter-clockwise from the heading (:func:`arrival_bearings`).
     fs : sampling rate, Hz. n_fft : STFT frame. radius, c : head radius (m) and speed of sound (m/s).
     out : (C, H, S, 2, n_fft // 2 + 1) complex64, filled one cell at a time (to bound the working memory).
     """

@@ -1,11 +1,12 @@
 """A scene's tables: three parts of the store, each keyed only by what it depends on.
 
-- ``poses``: the grid, each spot's distance and bearing from every pose with the delay-and-sum weights towards
-  it on the separator's STFT bins, and the responses' facts the mixing and the maps need (earliest path delay
+- ``poses``: the grid, each spot's distance and bearing from every pose, the bearing its earliest path arrives
+  from (the spot's own in line of sight) with the delay-and-sum weights towards it on the separator's STFT bins, and the responses' facts the mixing and the maps need (earliest path delay
   and gain, line of sight, length, lead). Key: the response cache key (scene content, acoustic settings, model
   version), the STFT frame, and the code that computes them.
-- ``spectra``: the response spectra and reference filter spectra on the mixing FFT grid. Key: the response key,
-  the window length and cross-fade, and the code.
+- ``spectra``: the response spectra on the mixing FFT grid, and the responses' early parts (the score's
+  reference, :mod:`hearnav.acoustics.early`). Key: the response key, the window length and cross-fade, and the
+  code.
 - ``maps``: the egocentric maps of every pose. Key: the poses key, the patch size and the field of view.
 
 A part is built from the cached responses (:func:`hearnav.acoustics.cache.load_or_build`, which builds them
@@ -21,7 +22,7 @@ from pathlib import Path
 import numpy as np
 
 from hearnav import listening
-from hearnav.acoustics import synthesis
+from hearnav.acoustics import early, synthesis
 from hearnav.acoustics.cache import cache_key, load_or_build
 from hearnav.acoustics.settings import AcousticSettings
 from hearnav.tables import maps, poses
@@ -37,9 +38,9 @@ from hearnav.tables.store import Part, PartWriter, digest, open_part, source_dig
 STFT_FRAME = SeparationContext.n_fft
 _POSES_CODE = (poses, steering, head, geometry, grid_module, stft.stft_freqs)
 # The mixing code that computes the spectra (the rest of hearnav.listening does not change them).
-_SPECTRA_CODE = (listening.ResponseSpectra.fft_size, listening.fill_spectra, listening.reference_filter,
-                 listening.filter_fits, synthesis)
-_FACTS = ("line_of_sight", "first_delay", "first_gain")
+_SPECTRA_CODE = (listening.ResponseSpectra.fft_size, listening.fill_spectra, listening.early_length,
+                 listening._responses_of, early, synthesis)
+_FACTS = ("line_of_sight", "first_delay", "first_gain", "first_azimuth")
 _GRID_ARRAYS = tuple(f.name for f in dataclasses.fields(Grid) if f.name not in ("spacing", "n_headings"))
 
 
@@ -50,10 +51,12 @@ class PoseTables:
     grid: Grid
     distance: np.ndarray  # (C, S) metres from each cell centre to each spot
     bearing: np.ndarray  # (C, H, S) radians in [-pi, pi), counter-clockwise from the heading
-    das: np.ndarray  # (C, H, S, 2, F) complex64 conjugate delay-and-sum weights (das_conjugates)
+    arrival: np.ndarray  # (C, H, S) radians: bearing of the earliest arriving path (the spot's in line of sight)
+    das: np.ndarray  # (C, H, S, 2, F) complex64 conjugate delay-and-sum weights towards ``arrival``
     line_of_sight: np.ndarray  # (C, S) bool: the direct path is not blocked
     first_delay: np.ndarray  # (C, S) float32 seconds: earliest path at the head centre
     first_gain: np.ndarray  # (C, S) float32 broadband amplitude of the earliest path
+    first_azimuth: np.ndarray  # (C, S) float32 radians, plan frame: direction of the earliest path
     fs: int
     lead: int
     length: int  # response length, samples
@@ -74,8 +77,10 @@ def _build_poses(scene: Scene, settings: AcousticSettings, out: PartWriter) -> N
     distance, bearing = poses.spot_directions(grid, scene.spots_xy)
     out.put("distance", distance)
     out.put("bearing", bearing)
+    arrival = poses.arrival_bearings(grid, responses.first_azimuth)
+    out.put("arrival", arrival)
     das = out.empty("das", (*bearing.shape, 2, STFT_FRAME // 2 + 1), np.complex64)
-    poses.fill_das(bearing, settings.fs, STFT_FRAME, settings.head_radius, settings.speed_of_sound, das)
+    poses.fill_das(arrival, settings.fs, STFT_FRAME, settings.head_radius, settings.speed_of_sound, das)
     for name in _FACTS:
         out.put(name, getattr(responses, name))
     for name in _GRID_ARRAYS:
@@ -89,7 +94,7 @@ def _build_poses(scene: Scene, settings: AcousticSettings, out: PartWriter) -> N
 def pose_tables(scene: Scene, settings: AcousticSettings) -> PoseTables:
     """The scene's :class:`PoseTables` from the store (built on first use)."""
     part = open_part(_folder(scene, "poses", poses_key(scene, settings)), poses_key(scene, settings),
-                     ("distance", "bearing", "das", *_FACTS, "grid.index", "grid.ij"),
+                     ("distance", "bearing", "arrival", "das", *_FACTS, "grid.index", "grid.ij"),
                      lambda out: _build_poses(scene, settings, out))
     return _poses_of(part)
 
@@ -98,7 +103,8 @@ def _poses_of(part: Part) -> PoseTables:
     s = part.scalars
     grid = Grid(spacing=s["spacing"], n_headings=s["n_headings"],
                 **{name: part.arrays.get(f"grid.{name}") for name in _GRID_ARRAYS})
-    return PoseTables(grid, part["distance"], part["bearing"], part["das"], *(part[n] for n in _FACTS),
+    return PoseTables(grid, part["distance"], part["bearing"], part["arrival"], part["das"],
+                      *(part[n] for n in _FACTS),
                       s["fs"], s["lead"], s["length"])
 
 
@@ -114,12 +120,11 @@ def response_spectra(scene: Scene, settings: AcousticSettings, window_len: int,
         c, h, s = responses.early.shape[:3]
         n_bins = listening.ResponseSpectra.fft_size(window_len, fade, responses.length) // 2 + 1
         listening.fill_spectra(responses, window_len, fade, out.empty("spectra", (c, h, s, 2, n_bins), np.complex64),
-                               out.empty("references", (c, s, n_bins), np.complex64), out.empty("fits", (c, s), bool))
+                               out.empty("early", (c, h, s, 2, listening.early_length(responses)), np.float32))
 
-    part = open_part(_folder(scene, "spectra", key), key, ("spectra", "references", "fits"), build)
+    part = open_part(_folder(scene, "spectra", key), key, ("spectra", "early"), build)
     pt = pose_tables(scene, settings)
-    return listening.ResponseSpectra(pt.fs, pt.lead, pt.length, window_len, fade, part["spectra"], part["references"],
-                                     part["fits"], pt.first_delay, pt.first_gain)
+    return listening.ResponseSpectra(pt.fs, pt.lead, pt.length, window_len, fade, part["spectra"], part["early"])
 
 
 def pose_maps(scene: Scene, settings: AcousticSettings, size: int, fov_rad: float) -> maps.PoseMaps:

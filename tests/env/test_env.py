@@ -113,7 +113,7 @@ def test_moves_turns_and_collisions(make_env):
 def test_info_contents(make_env):
     env = make_env()
     _, info = env.reset(seed=2)
-    keys = {"si_sdr_db", "ear_si_sdr_db", "pose", "collided", "target_active", "step", "scene", "sources"}
+    keys = {"si_sdr_db", "full_si_sdr_db", "input_si_sdr_db", "input_full_si_sdr_db", "pose", "collided", "target_active", "step", "scene", "sources"}
     assert set(info) == keys | {"embodiment"}
     assert info["embodiment"] is env.embodiment
     assert info["sources"][0]["role"] == "target" and 2 <= len(info["sources"]) <= 4
@@ -160,7 +160,7 @@ def test_render_rgb_array(make_env):
 
 def test_config_file_and_overrides(make_env):
     env = make_env(config="default", budget=4)
-    assert env.config.budget == 4 and env.config.separator == "delay-and-sum"
+    assert env.config.budget == 4 and env.config.separator == "identity"
 
 
 @pytest.mark.parametrize("options, message", [
@@ -215,7 +215,7 @@ def test_estimate_levels_from_the_output_spectrum_match_the_estimates_own(make_e
         env.reset(seed=seed)
         for action in (0, 1, 3):
             obs, *_ = env.step(action)
-            own = env.features.mono_signal(env.heard.estimate)
+            own = np.concatenate([env.features.mono_signal(ear) for ear in env.heard.estimate])
             assert env._estimate_spec is not None
             loud = own > LEVEL_DB[0] + 20
             diffs.append(np.abs(obs["estimate"] - own)[loud])
@@ -225,14 +225,15 @@ def test_estimate_levels_from_the_output_spectrum_match_the_estimates_own(make_e
 def test_a_separator_without_the_context_synthesis_gets_levels_of_its_estimate(make_env):
     @register_separator("left-ear-test")
     def left(mixture, ctx):
-        return mixture[0].copy()
+        return mixture[[0, 0]].copy()
 
     try:
         env = make_env(separator="left-ear-test")
         obs, _ = env.reset(seed=1)
         assert env._estimate_spec is None
-        np.testing.assert_array_equal(obs["estimate"], env.features.mono_signal(env.heard.estimate))
-        np.testing.assert_allclose(obs["estimate"][0], obs["binaural"][0], atol=1e-4)  # it is the left ear
+        assert obs["estimate"].shape == (2, *obs["binaural"].shape[1:])
+        np.testing.assert_array_equal(obs["estimate"][1], env.features.mono_signal(env.heard.estimate[1])[0])
+        np.testing.assert_allclose(obs["estimate"], obs["binaural"][[0, 0]], atol=1e-4)  # the left ear twice
     finally:
         unregister_separator("left-ear-test")
 
@@ -241,13 +242,13 @@ def test_a_separator_without_the_context_synthesis_gets_levels_of_its_estimate(m
 def test_a_separator_returning_non_finite_samples_is_an_error(make_env, bad):
     @register_separator("broken-test")
     def broken(mixture, ctx):
-        out = mixture[0].copy()
-        out[:3] = bad
+        out = mixture.copy()
+        out[1, :3] = bad
         return out
 
     try:
         env = make_env(separator="broken-test")
-        with pytest.raises(SeparatorError, match=r"separator 'broken-test' must return a finite \(\d+,\) estimate, "
+        with pytest.raises(SeparatorError, match=r"separator 'broken-test' must return a finite \(2, \d+\) estimate, "
                                                  r"got 3 NaN or infinite samples"):
             env.reset(seed=0)
     finally:

@@ -31,7 +31,8 @@ def test_view_moves_with_the_transition_function(make_env):
 
 
 def test_last_window_is_what_was_scored(make_env):
-    # The reported SI-SDR is the score of the last window's estimate against its reference; checked with
+    # The reported score is the mean over the ears of the SI-SDR of the last window's estimate at each ear against
+    # that ear's early image, and the separation-only score the same against the full image; checked with
     # fast_bss_eval (PyPI), an SI-SDR implementation independent of hearnav's (Scheibler 2021).
     env = make_env()
     env.reset(seed=5)
@@ -39,10 +40,18 @@ def test_last_window_is_what_was_scored(make_env):
     heard = env.privileged.last_window()
     body = env.embodiment
     assert heard["mixture"].shape == (2, body.window_len)
-    assert heard["estimate"].shape == heard["reference"].shape == (body.window_len - body.fade_len,)
-    ref = fast_bss_eval.si_sdr(heard["reference"][None].astype(np.float64),
-                               heard["estimate"][None].astype(np.float64), zero_mean=False)
-    assert info["si_sdr_db"] == pytest.approx(float(np.ravel(ref)[0]), abs=1e-3)
+    m = body.window_len - body.fade_len
+    assert heard["estimate"].shape == heard["reference"].shape == heard["full_image"].shape == (2, m)
+
+    def score(reference, estimate):
+        return float(np.mean(fast_bss_eval.si_sdr(reference.astype(np.float64), estimate.astype(np.float64),
+                                                  zero_mean=False)))
+
+    mixture = heard["mixture"][:, body.fade_len:]
+    assert info["si_sdr_db"] == pytest.approx(score(heard["reference"], heard["estimate"]), abs=1e-3)
+    assert info["full_si_sdr_db"] == pytest.approx(score(heard["full_image"], heard["estimate"]), abs=1e-3)
+    assert info["input_si_sdr_db"] == pytest.approx(score(heard["reference"], mixture), abs=1e-3)
+    assert info["input_full_si_sdr_db"] == pytest.approx(score(heard["full_image"], mixture), abs=1e-3)
 
 
 def test_embodiment_is_the_environments_own(make_env):

@@ -26,14 +26,16 @@ def _mean_scores(scene, separator):
     env = HearNavEnv(scenes=[scene], separator=separator, distractors=(1, 1), distractor_level_db=(0.0, 0.0),
                      target_category="noise", acoustics={"ism_order": 1, "n_rays": 300, "max_response_s": 0.1})
     rows = [env.reset(seed=seed)[1] for seed in range(6)]
-    return np.mean([r["si_sdr_db"] for r in rows]), np.mean([r["ear_si_sdr_db"] for r in rows])
+    return np.mean([r["si_sdr_db"] for r in rows]), np.mean([r["input_si_sdr_db"] for r in rows])
 
 
-@pytest.mark.parametrize("separator, margin", [("delay-and-sum", 10.0), ("mvdr", 20.0)])
+@pytest.mark.parametrize("separator, margin", [("delay-and-sum", 0.5), ("mvdr", 10.0)])
 def test_steering_at_the_target_beats_the_mixture_in_free_field(anechoic_pair, separator, margin):
-    # Beamforming towards the target in an anechoic two-source scene (Capon 1969; delay-and-sum, textbook):
-    # SI-SDR rises above the unprocessed better ear's. Measured here: delay-and-sum +22.7 dB, MVDR +36.9 dB
-    # over the ear (-22.5 dB) with an equal-level interferer, 6 episodes.
+    # Beamforming towards the target in an anechoic two-source scene, scored at each ear against the target's
+    # image there: the score rises above the unprocessed mixture's. Two ears 17.5 cm apart give delay-and-sum
+    # a broad beam, so its gain over one point interferer is small but positive (Van Trees 2002, ch. 2); an MVDR
+    # whose noise covariance holds the interferer alone puts a null on it (Capon 1969), a large gain. Measured
+    # here, 6 episodes with an equal-level interferer: delay-and-sum +1.4 dB, MVDR +15.1 dB over the input.
     est, mix = _mean_scores(anechoic_pair, separator)
     assert est - mix > margin
 
@@ -43,8 +45,9 @@ def test_stepping_into_line_of_sight_helps_in_most_hand_made_cases(fast_settings
     # Geometric acoustics (common practice): the direct path carries the target's least distorted copy, so
     # moving from a cell where it is blocked to a neighbour where it is not raises the default separator's
     # SI-SDR in most cases. benchmarks/occlusion_check.py runs it over every bundled scene at full settings
-    # (measured 64 % of 158 moves, median gain +4.1 dB, with delay-and-sum). Here: the three bundled scenes
-    # with such moves that build fastest, at the fast test settings (measured 67 % of 27 moves, median +2.9 dB).
+    # (measured 64 % of 158 moves, median gain +4.1 dB, with delay-and-sum, under the old head-centre reference).
+    # Here: the three bundled scenes with such moves that build fastest, at the fast test settings, scored
+    # against the early image at each ear (measured 74 % of 27 moves, median +4.2 dB).
     rng = np.random.default_rng(2026)
     results = []
     for name in ("elm-bay-flat", "rowan-kitchen", "maple-flat"):

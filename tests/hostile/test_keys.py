@@ -17,6 +17,7 @@ from pathlib import Path
 import pytest
 import yaml
 
+from hearnav.bench.keys import code_version
 from hearnav.bench.results import LOCK_FILE, read_rows
 from hearnav.bench.suites import load_suite
 from hearnav.cli import main
@@ -138,7 +139,11 @@ def test_a_manifest_of_a_version_before_keys_is_refused(setup, capsys):
     out.mkdir()
     shutil.copy(HERE / "old-run.json", out / "run.json")
     code, err = _bench(suite, out, capsys)
-    assert code == 2 and err == _refusal(out, "None", _key(suite))
+    # it is also of an older scoring (model2): the message says so (issue 12, item 6)
+    assert code == 2 and err == (f"hearnav: error: {out} holds results of another hearnav version, scored "
+                                 f"differently (code '0.1.0+model2', expected {code_version()}; key None, expected "
+                                 f"{_key(suite)}): scores of different versions cannot be compared; use a new --out "
+                                 f"folder")
 
 
 def test_a_rerun_after_deleting_the_manifest_under_another_suite_is_refused(setup, capsys):

@@ -91,3 +91,28 @@ def test_combine_is_the_weighted_sum_over_ears_in_every_layout(layout):
     for f in range(9):
         for t in range(6):
             assert y[f, t] == pytest.approx(wh[0, f] * spec[0, f, t] + wh[1, f] * spec[1, f, t], rel=1e-5)
+
+
+def test_binaural_mvdr_with_a_target_free_noise_covariance_is_distortionless_and_keeps_the_itf():
+    # Hadad, Doclo & Gannot, IEEE/ACM TASLP 2016: the binaural MVDR filters with w = R_n^-1 d / (d^H R_n^-1 d),
+    # distortionless towards the steering vector (w^H d = 1), and its output at ear e is d_e w^H X, so the target's
+    # interaural transfer function d_L / d_R survives. Here R_n comes from the spatial mask (no target term).
+    from binaural_scenes import FS, two_sources
+
+    from hearnav.physics.steering import steering_vector
+    from hearnav.separation.beamform import masked_covariance, to_ears
+    from hearnav.separation.masks import spatial_mask
+    from hearnav.separation.stft import stft, stft_freqs
+
+    az = np.deg2rad(40)
+    mix, image, _ = two_sources(3, az, np.deg2rad(-70))
+    spec = stft(mix)
+    d = steering_vector(az, stft_freqs(512, FS))
+    noise = masked_covariance(spec, 1.0 - spatial_mask(spec, d))
+    w = mvdr_weights(noise, d)
+    np.testing.assert_allclose(np.sum(np.conj(w) * d, axis=-1), 1.0, atol=1e-9)  # w^H d = 1
+    target_out = to_ears(d, apply_weights(w, stft(image)))  # the filter's output of the target alone
+    ratio = target_out[0] / target_out[1]
+    loud = np.abs(target_out[1]) > 1e-6 * np.abs(target_out[1]).max()
+    np.testing.assert_allclose(ratio[loud], np.broadcast_to((d[:, 0] / d[:, 1])[:, None], ratio.shape)[loud],
+                               rtol=1e-9)

@@ -67,11 +67,14 @@ def test_vectorised_weights_are_delay_and_sum_of_the_steering_vector(world):
 
 
 def test_the_env_hands_the_separator_the_weights_of_its_bearing(world):
-    # The tables are a cache: the weights the env passes must be those the context computes for the bearing.
+    # The tables are a cache: the weights the env passes must be those the context computes for the bearing the
+    # target's earliest path arrives from (the spot's own in line of sight).
     spot = world.plan.sources[0].spot
     for cell, heading in [(0, 0), (5, 2), (world.world.grid.n_cells - 1, 3)]:
         ctx = world.context(cell, heading)
         assert np.shares_memory(ctx.das, world.world.poses.das[cell, heading, spot])  # the store's row, not a copy
         own = SeparationContext(FS, ctx.azimuth, radius=ctx.radius, c=ctx.c).das_conjugate()
         np.testing.assert_array_equal(ctx.das_conjugate(), own)
-        assert ctx.azimuth == world.target_bearing(cell, heading)[1]
+        assert ctx.azimuth == world.world.poses.arrival[cell, heading, spot]
+        if world.world.poses.line_of_sight[cell, spot]:
+            assert ctx.azimuth == pytest.approx(world.target_bearing(cell, heading)[1], abs=1e-5)

@@ -25,7 +25,7 @@ import numpy as np
 from hearnav.env import HearNavEnv
 env = HearNavEnv(scenes=[{room!r}], acoustics={acoustics!r}, budget=6)
 obs, info = env.reset(seed=11)
-rows = [[info["si_sdr_db"], info["ear_si_sdr_db"], float(obs["binaural"].sum()), float(obs["map"].sum())]]
+rows = [[info["si_sdr_db"], info["input_si_sdr_db"], float(obs["binaural"].sum()), float(obs["map"].sum())]]
 for action in [0, 1, 0, 0, 2, 3]:
     obs, reward, _, _, info = env.step(action)
     rows.append([reward, info["si_sdr_db"], float(obs["binaural"].sum()), float(obs["estimate"].sum())])
