@@ -43,7 +43,7 @@ def _fake_responses(rt60: list[float]) -> Responses:
     """A one-cell, one-spot stand-in whose only meaningful field is the measured RT60."""
     z = np.zeros
     return Responses(FS, RESPONSE_LEAD, z((1, 2)), ("a",), z((1, 4, 1, 2, 8), np.float16), z((1, 1, 2, 16), np.float16),
-                     z((1, 1), np.float32), z((1, 1), np.float32), z((1, 1), bool), np.asarray(rt60, float))
+                     z((1, 1), np.float32), z((1, 1), np.float32), z((1, 1), np.float32), z((1, 1), bool), np.asarray(rt60, float))
 
 
 def _default_cache_path():
