@@ -87,10 +87,13 @@ def test_approach_reaches_and_faces_the_target(make_env):
 
 def test_greedy_oracle_beats_standing_still(make_env):
     env = make_env(budget=4)
-    wins = [run(env, "greedy-oracle", seed)["infos"][-1]["si_sdr_db"] >=
-            run(env, "still", seed)["infos"][-1]["si_sdr_db"] - 1e-9 for seed in range(5)]
-    # common practice: a one-step look-ahead on the true score does no worse than staying, in most episodes
-    assert sum(wins) >= 3
+    def mean_score(name, seed):  # the mean over the episode's windows: what a step-by-step look-ahead maximises
+        return np.mean([i["si_sdr_db"] for i in run(env, name, seed)["infos"][1:]])
+
+    wins = [mean_score("greedy-oracle", seed) >= mean_score("still", seed) - 1e-9 for seed in range(5)]
+    # common practice: a one-step look-ahead on the true score does no worse than staying, in most episodes (one
+    # window's score swings with the sounds' content, so the episode's windows are averaged)
+    assert sum(wins) >= 4
 
 
 def test_face_arrival_faces_the_source_in_free_field(make_env):
