@@ -45,3 +45,20 @@ def private_cache(tmp_path, monkeypatch):
     """Every test gets its own response cache folder."""
     monkeypatch.setenv("HEARNAV_CACHE", str(tmp_path / "cache"))
     return tmp_path / "cache"
+
+
+@pytest.fixture
+def scene():
+    """The tiny test room at 1 m spacing."""
+    return make_scene(spacing=1.0)
+
+
+@pytest.fixture
+def built(scene, fast_settings):
+    """(responses, path, key) of :func:`scene`, built through the response cache."""
+    from hearnav.acoustics import cache
+
+    responses = cache.load_or_build(scene, fast_settings)
+    path = cache.cache_path(scene, fast_settings)
+    assert path.is_file()
+    return responses, path, cache.cache_key(scene, fast_settings)

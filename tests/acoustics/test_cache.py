@@ -33,20 +33,6 @@ def assert_same_responses(a: Responses, b: Responses) -> None:
             assert x == y, name
 
 
-@pytest.fixture
-def scene():
-    return make_scene(spacing=1.0)
-
-
-@pytest.fixture
-def built(scene, fast_settings):
-    """(responses, path, key) of the tiny scene, built through the cache."""
-    responses = cache.load_or_build(scene, fast_settings)
-    path = cache.cache_path(scene, fast_settings)
-    assert path.is_file()
-    return responses, path, cache.cache_key(scene, fast_settings)
-
-
 # --- where files go and how they are keyed ------------------------------------------------------------
 
 

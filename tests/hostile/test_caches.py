@@ -45,18 +45,6 @@ FULL_CACHE = ("cannot write the response cache in {} (no space left on device): 
 RO_OUT = "cannot write results in {} (read-only file system): choose a writable --out folder"
 
 
-@pytest.fixture
-def scene():
-    return make_scene(spacing=1.0)
-
-
-@pytest.fixture
-def built(scene, fast_settings):
-    """(clean responses, cache path, key) of the tiny scene."""
-    responses = cache.load_or_build(scene, fast_settings)
-    return responses, cache.cache_path(scene, fast_settings), cache.cache_key(scene, fast_settings)
-
-
 @pytest.fixture(autouse=True)
 def fresh_store():
     store.forget_open()
