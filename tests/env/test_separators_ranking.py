@@ -18,8 +18,8 @@ from benchmarks.separators_table import episode_means
 from hearnav.separation import separator_names
 
 #: benchmarks/separators_table.py on the val scenes (README): mean score and its 95 % bootstrap CI, dB.
-TABLE = {"oracle-mask": (5.02, 3.90, 6.41), "identity": (-8.86, -10.76, -6.42), "delay-and-sum": (-12.07, -13.97, -9.14),
-         "spatial-mask": (-12.25, -14.75, -9.20), "mvdr": (-14.79, -17.45, -11.51), "mwf": (-17.26, -20.82, -13.39)}
+TABLE = {"oracle-mask": (5.79, 4.67, 7.04), "identity": (-8.75, -10.55, -6.41), "delay-and-sum": (-11.89, -13.80, -9.08),
+         "spatial-mask": (-13.34, -15.81, -9.93), "mvdr": (-14.59, -16.99, -11.44), "mwf": (-17.42, -20.62, -13.68)}
 
 
 def resolved_pairs() -> list[tuple[str, str]]:
@@ -37,5 +37,5 @@ def test_the_table_ranking_is_reproduced_on_a_few_windows(make_env):
     assert len(pairs) >= 7  # the oracle above all five, and the mixture above both beamformers
     for better, worse in pairs:
         assert means[better] > means[worse], (better, worse, means)
-    # the best non-privileged separator of the table (the default) is the best here too
-    assert max((n for n in names if n != "oracle-mask"), key=means.get) == "identity", means
+    # The table's intervals do not separate identity (the default) from delay-and-sum and spatial-mask, so their
+    # order is not asserted here: in this small shoebox spatial-mask can come first.
