@@ -101,6 +101,15 @@ def _pair_paths(images: list[room.ImageSources], receivers: np.ndarray, spots: n
     return paths, np.asarray(first_delay), np.asarray(first_gain), np.asarray(first_azimuth), np.asarray(los)
 
 
+def direct_fit(distance: float, head_radius: float, c: float, fs: int) -> int:
+    """Samples a response needs so that a direct path over ``distance`` metres reaches both ears whole.
+
+    The inverse of the path cut in :func:`build_responses`: a path is kept when its delay at the head centre is
+    at most ``(length - RESPONSE_LEAD - FD_TAPS) / fs - 2 * head_radius / c``.
+    """
+    return int(np.ceil((distance / c + 2 * head_radius / c) * fs)) + RESPONSE_LEAD + FD_TAPS + 1
+
+
 def _decay_rt60(hist: np.ndarray, bin_s: float) -> np.ndarray:
     """Per-band RT60 of the pooled late histograms (T30, else T20; 0 where there is no decay to fit).
 
@@ -182,6 +191,9 @@ def build_responses(scene: Scene, grid: Grid, settings: AcousticSettings,
     reach = max(direct.max() / c + float(traced[_LENGTH_BANDS].max()) * settings.decay_db / 60,
                 _decay_end(hist, bin_s, settings.decay_db) + behind)
     length = int(np.ceil(min(settings.max_response_s, reach) * fs)) + RESPONSE_LEAD
+    # Every direct path fits, whatever the decay (in a free field there is none): its delay at the far ear and
+    # the fractional-delay filter's taps come after the farthest cell-spot distance.
+    length = max(length, direct_fit(direct.max(), settings.head_radius, c, fs))
     max_delay = (length - RESPONSE_LEAD - FD_TAPS) / fs - 2 * settings.head_radius / c
     air = room.air_coefficients(settings)
     paths, first_delay, first_gain, first_azimuth, los = _pair_paths(images, receivers, spots, air, max_delay, c)

@@ -8,7 +8,7 @@ import json
 from pydantic import BaseModel, ConfigDict, Field, field_validator
 
 #: Bumped whenever the response model changes in a way that invalidates cached files.
-MODEL_VERSION = 5
+MODEL_VERSION = 6
 #: Every response starts this many samples late, so that non-causal filter taps fit before the first path.
 RESPONSE_LEAD = 32
 

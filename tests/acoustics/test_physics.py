@@ -52,6 +52,17 @@ def test_direct_path_delay_and_inverse_distance(anechoic):
     assert levels[1] - levels[2] == pytest.approx(6.02, abs=0.2)
 
 
+def test_every_cell_hears_the_direct_path_in_free_field(anechoic):
+    # Free field (Kinsler et al. 2000, sec. 5.11): every receiver gets the direct sound, so no response may be
+    # silent, however far the cell is from the spot (the length rule once cut the farthest pairs' direct paths).
+    scene, grid, resp = anechoic
+    energy = [float(np.sum(resp.response(cell, 0, 0).astype(float) ** 2)) for cell in range(grid.n_cells)]
+    assert min(energy) > 0
+    far = int(np.argmax(resp.first_delay[:, 0]))
+    peak = int(np.argmax(np.abs(resp.response(far, 0, 0)[0].astype(float))))
+    assert abs(peak - RESPONSE_LEAD - resp.first_delay[far, 0] * FS) <= 4  # within the ear offset, a < 3 samples
+
+
 def test_direct_delay_matches_pyroomacoustics(anechoic):
     # Reference library: pyroomacoustics' own RIR peaks at r/c plus its fixed 40-sample lead.
     scene, grid, resp = anechoic
