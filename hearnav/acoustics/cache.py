@@ -91,19 +91,31 @@ def _member_limits(z: zipfile.ZipFile, size: int) -> dict[str, int]:
     return limits
 
 
+def _meta_of(z: zipfile.ZipFile, limits: dict[str, int]) -> dict:
+    """The metadata of an open cache file, checked to be a JSON object of bounded size."""
+    if "meta" not in limits:
+        raise npyfile.BadArray("no meta array (expected the cache's metadata)")
+    with z.open("meta.npy") as m:
+        meta_array = npyfile.read_array(m, None, min(limits["meta"], _META_BYTES))
+    if meta_array.dtype.kind != "U" or meta_array.shape != ():
+        raise npyfile.BadArray(f"meta is {meta_array.dtype.str} of shape {meta_array.shape}, expected a string")
+    meta = json.loads(str(meta_array))
+    if not isinstance(meta, dict):
+        raise npyfile.BadArray(f"meta is {type(meta).__name__}, expected a JSON object")
+    return meta
+
+
+def read_meta(path: Path) -> dict:
+    """The metadata of a cache file (key, model, checksum, shapes, measured T30); its arrays are not read."""
+    with open(path, "rb") as f, zipfile.ZipFile(f) as z:
+        return _meta_of(z, _member_limits(z, os.fstat(f.fileno()).st_size))
+
+
 def _read_arrays(path: Path) -> tuple[dict, dict[str, np.ndarray]]:
     """(meta, arrays) of a cache file; every shape is checked against the metadata before it is allocated."""
     with open(path, "rb") as f, zipfile.ZipFile(f) as z:
         limits = _member_limits(z, os.fstat(f.fileno()).st_size)
-        if "meta" not in limits:
-            raise npyfile.BadArray("no meta array (expected the cache's metadata)")
-        with z.open("meta.npy") as m:
-            meta_array = npyfile.read_array(m, None, min(limits["meta"], _META_BYTES))
-        if meta_array.dtype.kind != "U" or meta_array.shape != ():
-            raise npyfile.BadArray(f"meta is {meta_array.dtype.str} of shape {meta_array.shape}, expected a string")
-        meta = json.loads(str(meta_array))
-        if not isinstance(meta, dict):
-            raise npyfile.BadArray(f"meta is {type(meta).__name__}, expected a JSON object")
+        meta = _meta_of(z, limits)
         declared = meta.get("arrays")  # absent from files of earlier versions: the size bound and checksum apply
         if declared is not None and set(declared) != set(limits) - {"meta"}:
             raise npyfile.BadArray("the arrays differ from those the metadata list")

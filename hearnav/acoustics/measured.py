@@ -2,27 +2,11 @@
 
 from __future__ import annotations
 
-import json
-import zipfile
-from pathlib import Path
-
 import numpy as np
 
-from hearnav import npyfile
 from hearnav.acoustics import cache
 from hearnav.acoustics.settings import AcousticSettings
 from hearnav.scene.model import Scene
-
-
-def _meta(path: Path) -> dict:
-    """The metadata of a cache file (its other arrays are not read)."""
-    with open(path, "rb") as f, zipfile.ZipFile(f) as z:
-        limits = cache._member_limits(z, path.stat().st_size)
-        with z.open("meta.npy") as m:
-            meta = json.loads(str(npyfile.read_array(m, None, min(limits["meta"], cache._META_BYTES))))
-    if not isinstance(meta, dict):
-        raise ValueError("meta is not a JSON object")
-    return meta
 
 
 def cached_rt60(scene: Scene, settings: AcousticSettings) -> np.ndarray | None:
@@ -37,7 +21,7 @@ def cached_rt60(scene: Scene, settings: AcousticSettings) -> np.ndarray | None:
     if not path.is_file():
         return None
     try:
-        meta = _meta(path)
+        meta = cache.read_meta(path)
         values = meta["rt60_t30"]
         if meta.get("key") != cache.cache_key(scene, settings) or not isinstance(values, list):
             return None
