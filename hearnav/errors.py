@@ -80,11 +80,18 @@ def shown_path(path: object) -> str:
 
 
 def exception_line(exc: BaseException, width: int = 200) -> str:
-    """``Type: first line of the message``, at most ``width`` characters of message: how a foreign exception
-    (a plug-in's, a library's) is named on hearnav's one-line messages."""
-    lines = str(exc).strip().splitlines()
-    text = lines[0] if lines else "(no message)"
-    return f"{type(exc).__name__}: {text if len(text) <= width else text[: width - 3] + '...'}"
+    """``Type: first line of the message`` (``Type`` alone when there is none), the message cut to ``width``
+    characters: how a foreign exception (a plug-in's, a library's, a damaged file's) is named on hearnav's
+    one-line messages. An exception whose ``str()`` itself raises is still named."""
+    try:
+        text = str(exc)
+    except BaseException as inner:  # a plug-in's exception may fail even to become text
+        text = f"(its message could not be shown: str() raised {type(inner).__name__})"
+    lines = text.strip().splitlines()
+    first = " ".join(lines[0].split()) if lines else ""
+    if len(first) > width:
+        first = first[: width - 3] + "..."
+    return f"{type(exc).__name__}: {first}" if first else type(exc).__name__
 
 
 def unknown_name(kind: str, name: str, valid: Iterable[str]) -> str:

@@ -30,7 +30,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import BinaryIO
 
-from hearnav.errors import CacheError, HearnavError
+from hearnav.errors import CacheError, HearnavError, exception_line
 
 #: A temporary older than this is stale whoever made it (a day: no write of hearnav takes that long).
 STALE_AGE_S = 24 * 3600
@@ -48,12 +48,6 @@ def note(message: str) -> None:
     print(f"hearnav: note: {message}", file=sys.stderr)
 
 
-def reason(exc: BaseException, width: int = 100) -> str:
-    """``Type: message`` of an exception on one line of at most ``width`` characters."""
-    text = " ".join(f"{type(exc).__name__}: {exc}".split())
-    return text if len(text) <= width else text[: width - 3] + "..."
-
-
 @dataclass(frozen=True)
 class Place:
     """A kind of folder hearnav writes, and how the user chooses another: the words of its write errors."""
@@ -65,7 +59,7 @@ class Place:
 
     def error_for(self, exc: OSError, folder: str | os.PathLike) -> HearnavError:
         """One-line error for a failed write in ``folder`` (paths are bounded by PATH_MAX, so shown whole)."""
-        why = _REASONS.get(exc.errno) or (os.strerror(exc.errno).lower() if exc.errno else reason(exc))
+        why = _REASONS.get(exc.errno) or (os.strerror(exc.errno).lower() if exc.errno else exception_line(exc, 100))
         fix = self.fix_space if exc.errno in _FULL else self.fix_access
         return self.error(f"cannot write {self.what} in {folder} ({why}): {fix}")
 

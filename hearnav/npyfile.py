@@ -12,7 +12,7 @@ from typing import BinaryIO
 
 import numpy as np
 
-from hearnav.files import reason
+from hearnav.errors import exception_line
 
 # numpy.lib.format readers of the header versions it writes (1.0; 2.0 for headers over 64 KiB; 3.0 for
 # utf-8 field names), NEP 1 and numpy.lib.format
@@ -33,7 +33,7 @@ def read_header(f: BinaryIO) -> tuple[np.dtype, tuple[int, ...], bool]:
     except BadArray:
         raise
     except Exception as exc:  # a damaged header may fail anywhere in the parser (ValueError, TokenError, ...)
-        raise BadArray(f"unreadable .npy header ({reason(exc)})") from None
+        raise BadArray(f"unreadable .npy header ({exception_line(exc, 100)})") from None
     if dtype.hasobject or dtype.itemsize == 0:
         raise BadArray(f"expected an array of plain values, got dtype {dtype.str}")
     return dtype, tuple(shape), bool(fortran)
@@ -74,7 +74,7 @@ def read_array(f: BinaryIO, expected: tuple[str, tuple[int, ...]] | None, limit:
             got += n
         extra = f.read(1)
     except Exception as exc:  # a zip member's CRC-32 check, a read error, ...
-        raise BadArray(f"unreadable array data ({reason(exc)})") from None
+        raise BadArray(f"unreadable array data ({exception_line(exc, 100)})") from None
     if got != nbytes or extra:
         raise BadArray(f"expected {nbytes} bytes of array data, got {got}{' and more' if extra else ''}")
     return flat.reshape(shape[::-1]).T if fortran else flat.reshape(shape)

@@ -23,7 +23,7 @@ import numpy as np
 from hearnav import files, npyfile
 from hearnav.acoustics.responses import Responses, build_responses
 from hearnav.acoustics.settings import MODEL_VERSION, AcousticSettings
-from hearnav.errors import CacheError
+from hearnav.errors import CacheError, exception_line
 from hearnav.scene.grid import Grid, build_grid
 from hearnav.scene.model import Scene
 
@@ -131,7 +131,7 @@ def load(path: Path, key: str | None = None) -> Responses:
     try:
         meta, arrays = _read_arrays(path)
     except Exception as exc:  # untrusted bytes: any failure to parse them means a damaged file
-        raise CacheError(f"{path}: unreadable cache file (expected a complete .npz, got {files.reason(exc)})") from None
+        raise CacheError(f"{path}: unreadable cache file (expected a complete .npz, got {exception_line(exc, 100)})") from None
     if meta.get("checksum") != _checksum(arrays):
         raise CacheError(f"{path}: cache checksum mismatch (expected {str(meta.get('checksum'))[:12]}..., the data differ)")
     if key is not None and meta.get("key") != key:
@@ -147,7 +147,7 @@ def load(path: Path, key: str | None = None) -> Responses:
         fields["spot_names"] = tuple(spot_names)
         fields["fs"], fields["lead"] = int(fields["fs"]), int(fields["lead"])
     except Exception as exc:
-        raise CacheError(f"{path}: inconsistent cache file (expected every response field, got {files.reason(exc)})") from None
+        raise CacheError(f"{path}: inconsistent cache file (expected every response field, got {exception_line(exc, 100)})") from None
     return Responses(**fields)
 
 

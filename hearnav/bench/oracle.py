@@ -16,7 +16,7 @@ from pathlib import Path
 
 from hearnav import files
 from hearnav.env import Action, HearNavEnv
-from hearnav.errors import short_repr
+from hearnav.errors import exception_line, short_repr
 
 PLACE = files.cache_place("the oracle bounds")
 # Most bytes of an oracle file (about 30 per episode: far more than any suite's episodes).
@@ -92,6 +92,6 @@ def _read_values(path: Path, report: Callable[[str], None]) -> dict[str, float]:
         return {}
     except Exception as exc:  # a truncated or damaged file: any failure to parse it
         report(f"{path}: unreadable oracle file (expected a JSON object of episode seed: bound, got "
-               f"{files.reason(exc)}); recomputing")
+               f"{exception_line(exc, 100)}); recomputing")
         return {}
     return {seed: float(value) for seed, value in values.items()}

@@ -24,7 +24,7 @@ from hearnav.bench.results import EpisodeResult
 from hearnav.bench.suites import Suite, policy_seed
 from hearnav.bench.workers import Failure, WorkerPool
 from hearnav.env.core import HearNavEnv
-from hearnav.errors import HearnavError, short_repr
+from hearnav.errors import HearnavError, exception_line, short_repr
 
 # The environment of a worker process, set there once by _start_worker; the calling process never sets it.
 _worker_env: HearNavEnv | None = None
@@ -57,11 +57,7 @@ def describe(exc: BaseException) -> str:
     """One line for what a policy raised: ``policy exited (SystemExit 3)`` or ``ValueError: message``."""
     if isinstance(exc, SystemExit):
         return f"policy exited (SystemExit {short_repr(exc.code)})"
-    try:
-        text = str(exc).strip()
-    except BaseException as inner:  # a policy's exception may fail even to become text
-        text = f"(its message could not be shown: str() raised {type(inner).__name__})"
-    return (f"{type(exc).__name__}: {text}" if text else type(exc).__name__).splitlines()[0][:500]
+    return exception_line(exc, 500)
 
 
 def failed_result(task: Task, reason: str, privileged: bool = False) -> EpisodeResult:

@@ -26,6 +26,7 @@ from pathlib import Path
 import numpy as np
 
 from hearnav import files, npyfile
+from hearnav.errors import exception_line
 from hearnav.acoustics.cache import cache_dir
 
 #: Layout version of a part folder (bumped when the layout or the manifest changes).
@@ -165,13 +166,13 @@ def _manifest(folder: Path) -> dict:
     except FileNotFoundError:
         raise DamagedPart(f"{folder}: no {_MANIFEST} (expected a complete part)") from None
     except OSError as exc:
-        raise DamagedPart(f"{folder}: unreadable {_MANIFEST} ({files.reason(exc)})") from None
+        raise DamagedPart(f"{folder}: unreadable {_MANIFEST} ({exception_line(exc, 100)})") from None
     if len(text) > _MANIFEST_BYTES:
         raise DamagedPart(f"{folder}: {_MANIFEST} over {_MANIFEST_BYTES} bytes (expected a small JSON object)")
     try:
         manifest = json.loads(text)
     except Exception as exc:  # ValueError, UnicodeDecodeError, RecursionError on deep nesting, ...
-        raise DamagedPart(f"{folder}: unreadable {_MANIFEST} ({files.reason(exc)})") from None
+        raise DamagedPart(f"{folder}: unreadable {_MANIFEST} ({exception_line(exc, 100)})") from None
     if not isinstance(manifest, dict) or not isinstance(manifest.get("arrays", {}), dict) \
             or not isinstance(manifest.get("scalars", {}), dict):
         raise DamagedPart(f"{folder}: {_MANIFEST} is not a part's manifest (expected an object with arrays and "
@@ -203,7 +204,7 @@ def _entry(folder: Path, name: str, entry: object) -> tuple[str, tuple[int, ...]
             raise TypeError("wrong types")
     except Exception as exc:
         raise DamagedPart(f"{folder}: manifest entry of {name[:40]!r} is not a dtype, shape and CRC-32 "
-                          f"({files.reason(exc, 60)})") from None
+                          f"({exception_line(exc, 60)})") from None
     return dtype, shape, crc
 
 
@@ -225,7 +226,7 @@ def _read_array(path: Path, entry: tuple[str, tuple[int, ...], int]) -> np.ndarr
     except npyfile.BadArray as exc:
         raise DamagedPart(f"{path}: {exc}") from None
     except Exception as exc:  # a read error, a failed map, ...
-        raise DamagedPart(f"{path}: unreadable array ({files.reason(exc)})") from None
+        raise DamagedPart(f"{path}: unreadable array ({exception_line(exc, 100)})") from None
     if _crc(a) != crc:
         raise DamagedPart(f"{path}: CRC-32 mismatch (the bytes differ from those written)")
     a = a.view(np.ndarray)  # a plain view of the map: no np.memmap overhead on every operation
