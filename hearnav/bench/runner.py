@@ -12,6 +12,7 @@ from __future__ import annotations
 import itertools
 import math
 import time
+from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -149,14 +150,15 @@ def compute_oracles(suite: Suite, folder: Path, workers: int, progress=None) -> 
     return {s: cache.get(s) for s in suite.episode_seeds()}
 
 
-def run_tasks(suite: Suite, tasks: list[Task], workers: int, episode_timeout: float | None = None):
+def run_tasks(suite: Suite, tasks: list[Task], workers: int, privileged: Mapping[str, bool],
+              episode_timeout: float | None = None):
     """Results of the tasks, as they finish. Tasks of one episode go to one worker together, so the episode's
     sounds are generated once for all policies. An episode that passes ``episode_timeout`` seconds (``None``:
-    no limit), or whose worker dies, gets a failed row (:func:`failed_result`)."""
+    no limit), or whose worker dies, gets a failed row (:func:`failed_result`) whose ``privileged`` flag comes
+    from ``privileged`` (policy reference -> whether it is privileged, as the caller loaded it)."""
     options = suite.env_config().model_dump()
     ordered = sorted(tasks, key=lambda t: (t.index, t.policy))
     groups = [list(group) for _, group in itertools.groupby(ordered, key=lambda t: t.index)]
-    privileged = {ref: is_privileged(load_policy(ref)[1]) for ref in sorted({t.policy for t in tasks})}
     with WorkerPool(_work, _start_worker, options, min(workers, len(groups)), timeout=episode_timeout) as pool:
         for task, result in pool.run(groups):
             yield failed_result(task, result.reason, privileged[task.policy]) if isinstance(result, Failure) \

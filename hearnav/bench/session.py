@@ -121,6 +121,7 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
     """
     from hearnav.acoustics import cache_dir
     from hearnav.bench.keys import result_key
+    from hearnav.bench.policy import is_privileged
     from hearnav.bench.registry import load_policy
     from hearnav.bench.runner import Task, compute_oracles, run_tasks
     from hearnav.bench.stats import summarise
@@ -130,8 +131,8 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
     policies = _check_arguments(policies, workers, save_audio)
     episode_timeout = _check_timeout(episode_timeout)
     suite = suite if isinstance(suite, Suite) else load_suite(str(suite))
-    for ref in policies:  # unknown names fail here, in one line, before any work
-        load_policy(ref)
+    # unknown names and failing constructors fail here, in one line, before any work
+    privileged = {ref: is_privileged(load_policy(ref)[1]) for ref in policies}
     clear_cache()  # read the scene files as they are now: the key and the episodes use the same scenes
     parts = suite.key_parts()
     key = result_key(parts)
@@ -152,7 +153,7 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
                  for ref in policies for k, s in enumerate(seeds) if (ref, s) not in done]
         step = _counter(progress, suite.name, len(tasks))
         with results.ResultWriter(rows_path) as writer:
-            for result in run_tasks(suite, tasks, workers, episode_timeout):
+            for result in run_tasks(suite, tasks, workers, privileged, episode_timeout):
                 writer.append(dataclasses.replace(result, run_key=key))
                 step()
         rows = results.read_rows(rows_path)
