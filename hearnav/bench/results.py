@@ -21,6 +21,7 @@ convention and :func:`comparable` drops them before rows are compared.
 from __future__ import annotations
 
 import contextlib
+import fcntl
 import json
 import math
 import os
@@ -37,10 +38,6 @@ from hearnav import files
 from hearnav.bench.keys import changed_parts
 from hearnav.errors import HearnavError, short_repr
 
-try:
-    import fcntl
-except ImportError:  # Windows: no flock
-    fcntl = None
 
 EPISODES_FILE = "episodes.jsonl"
 SUMMARY_FILE = "summary.json"
@@ -527,8 +524,7 @@ def lock_folder(directory: str | os.PathLike) -> Iterator[Path]:
     """Hold an exclusive lock on a run folder (``flock`` of ``DIR/.lock``) until the block ends.
 
     The lock is taken without waiting: if another process holds it, :class:`ResultsError` is raised at once.
-    It is released when the block ends or the process dies. Where ``fcntl`` does not exist (Windows) the
-    folder is not locked.
+    It is released when the block ends or the process dies.
 
     Parameters
     ----------
@@ -541,19 +537,15 @@ def lock_folder(directory: str | os.PathLike) -> Iterator[Path]:
         The lock file.
     """
     path = Path(directory) / LOCK_FILE
+    with files.writing(directory, OUTPUT):  # an unwritable folder is one line naming it
+        fd = os.open(path, os.O_RDWR | os.O_CREAT | os.O_CLOEXEC, 0o666)  # the umask decides
     try:
-        fd = os.open(path, os.O_RDWR | os.O_CREAT, 0o666)  # the umask decides
-    except OSError as exc:
-        raise ResultsError(f"{path}: expected to create the run folder's lock file, got {exc.strerror}: "
-                           f"choose a writable --out folder") from None
-    try:
-        if fcntl is not None:
-            try:
-                fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
-            except BlockingIOError:
-                raise ResultsError(f"{directory} is in use by another run (expected a results folder no other run "
-                                   f"writes to, found {LOCK_FILE} locked): wait for that run to end or use a new "
-                                   f"--out folder") from None
+        try:
+            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except BlockingIOError:
+            raise ResultsError(f"{directory} is in use by another run (expected a results folder no other run "
+                               f"writes to, found {LOCK_FILE} locked): wait for that run to end or use a new "
+                               f"--out folder") from None
         yield path
     finally:
         os.close(fd)  # closing the last descriptor of the open file releases the lock
