@@ -55,7 +55,11 @@ def scene_argument(name: str):
 
 
 def _eyring_mid(scene) -> float:
-    return float(np.mean(scene.eyring_rt60()[2:4]))  # 500 Hz and 1 kHz
+    """Eyring's estimate, mean of the 500 Hz and 1 kHz bands (as the measured value)."""
+    from hearnav.physics.decay import mid_t30
+    from hearnav.scene.materials import BAND_CENTERS_HZ
+
+    return mid_t30(scene.eyring_rt60(), BAND_CENTERS_HZ)
 
 
 def _measured_mid(scene, settings) -> str:
