@@ -246,6 +246,19 @@ class ListeningSession:
             self._seg = self.world.segment_spectra(self.sources, self.time)
         return self._seg
 
+    def fork(self, windows_ahead: int = 0) -> ListeningSession:
+        """A new session over the same sources, ``windows_ahead`` windows after this one's current window, with no
+        previous pose (its first window has no cross-fade); this session is unchanged."""
+        other = ListeningSession(self.world, self.sources, self.target, self.all_images)
+        other.time = self.time + windows_ahead * self.world.window_len
+        return other
+
+    def advance(self) -> None:
+        """Skip the current window without hearing it (the next window has no cross-fade)."""
+        self.time += self.world.window_len
+        self._tail = None
+        self._seg = None
+
     def peek(self, cell: int, heading: int) -> Window:
         """The current window at any pose, without moving or advancing time (no cross-fade)."""
         win = self.world.mix(cell, heading, self.sources, self.time, self.target, self.all_images,

@@ -68,8 +68,12 @@ class EpisodeResult:
 
     Scores are in dB: the mean over the two ears of the SI-SDR against the target's early image at that ear;
     ``*_full_*`` against its full reverberant image (separation only); ``*_input_*`` of the unprocessed
-    mixture. ``normalised_gain`` is gain / (oracle bound - start score), ``None`` when the
-    bound is unknown or not above the start. ``extra`` keeps fields this version does not know (rows written
+    mixture. ``gain_db`` is the mean paired gain of the end pose over the start pose on the
+    ``eval_windows_scored`` scored windows that follow the episode; ``mean_gain_db`` the mean over the episode's
+    scored steps of S(pose_t, w_t) - S(pose_0, w_t) (how soon the gain came); ``oracle_gain_db`` the oracle
+    bound's gain (:mod:`hearnav.bench.oracle`); ``normalised_gain`` is gain_db / oracle_gain_db, ``None`` when the
+    bound is unknown or not above 0. ``start_*`` and ``final_*`` scores are those of the first and last windows
+    heard; ``quiet_windows`` counts the episode's windows that were not scored (:mod:`hearnav.env.gating`). ``extra`` keeps fields this version does not know (rows written
     by other versions), so they survive a round trip. ``run_key`` is the result key of the run that wrote
     the row (:mod:`hearnav.bench.keys`).
     """
@@ -81,7 +85,7 @@ class EpisodeResult:
     privileged: bool = False
     episode_index: int | None = None
     scene: str | None = None
-    oracle_si_sdr_db: float | None = None
+    oracle_gain_db: float | None = None
     start_si_sdr_db: float | None = None
     start_input_si_sdr_db: float | None = None
     start_full_si_sdr_db: float | None = None
@@ -90,6 +94,9 @@ class EpisodeResult:
     final_full_si_sdr_db: float | None = None
     best_si_sdr_db: float | None = None
     gain_db: float | None = None
+    mean_gain_db: float | None = None
+    eval_windows_scored: int | None = None
+    quiet_windows: int | None = None
     episode_return: float | None = None
     normalised_gain: float | None = None
     path_length_m: float | None = None

@@ -18,7 +18,7 @@ from pathlib import Path
 
 import numpy as np
 
-from hearnav.bench.oracle import OracleCache, oracle_bound
+from hearnav.bench.oracle import OracleCache, oracle_bound, paired_gains
 from hearnav.bench.policy import is_privileged
 from hearnav.bench.registry import load_policy
 from hearnav.bench.results import EpisodeResult
@@ -64,7 +64,7 @@ def describe(exc: BaseException) -> str:
 def failed_result(task: Task, reason: str, privileged: bool = False) -> EpisodeResult:
     """The row of an episode that gave no result of its own (its worker died or timed out)."""
     return EpisodeResult(policy=task.policy, privileged=privileged, episode_index=task.index,
-                         episode_seed=task.seed, oracle_si_sdr_db=task.oracle, status="failed", error=reason)
+                         episode_seed=task.seed, oracle_gain_db=task.oracle, status="failed", error=reason)
 
 
 def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult:
@@ -74,11 +74,12 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult
     obs, info = env.reset(seed=task.seed)
     start = info["si_sdr_db"]
     result = EpisodeResult(policy=name, privileged=privileged, episode_index=task.index, episode_seed=task.seed,
-                           oracle_si_sdr_db=task.oracle, scene=info["scene"], start_si_sdr_db=start,
+                           oracle_gain_db=task.oracle, scene=info["scene"], start_si_sdr_db=start,
                            start_input_si_sdr_db=info["input_si_sdr_db"], start_full_si_sdr_db=info["full_si_sdr_db"],
                            start_input_full_si_sdr_db=info["input_full_si_sdr_db"])
     start_xy = (info["pose"]["x"], info["pose"]["y"])
-    best, ret, collisions, path, steps = start, 0.0, 0, 0.0, 0
+    start_pose = (info["pose"]["cell"], info["pose"]["heading"])
+    best, ret, collisions, path, steps, along = start, 0.0, 0, 0.0, 0, []
     audio = [] if task.audio_dir else None
     try:
         extra = {"seed": policy_seed(task.seed)}
@@ -95,16 +96,20 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult
             collisions += int(info["collided"])
             path += math.dist(before, (info["pose"]["x"], info["pose"]["y"]))
             best = max(best, info["si_sdr_db"])
+            if info["target_active"]:
+                along.append(_from_start(env, info, start_pose))
             if audio is not None:
                 audio.append(env.unwrapped.privileged.last_window())
     except BaseException as exc:  # the policy's fault (workers ignore SIGINT): record it, never end the run
         result.status, result.error = "failed", describe(exc)
     final = info["si_sdr_db"]
     result.final_full_si_sdr_db = info["full_si_sdr_db"]
-    gain = final - start
-    span = None if task.oracle is None else task.oracle - start
+    end_pose = (info["pose"]["cell"], info["pose"]["heading"])
+    gain, result.eval_windows_scored = end_gain(env, end_pose, start_pose)
     result.final_si_sdr_db, result.best_si_sdr_db, result.gain_db, result.episode_return = final, best, gain, ret
-    result.normalised_gain = (gain / span) if span and span > 1e-9 else None
+    result.mean_gain_db = float(np.mean(along)) if along else 0.0
+    result.quiet_windows = info["quiet_windows"]
+    result.normalised_gain = (gain / task.oracle) if task.oracle is not None and task.oracle > 1e-9 else None
     result.path_length_m, result.steps, result.collisions = path, steps, collisions
     result.final_pose, result.start_xy = info["pose"], list(start_xy)
     result.wall_time_s = time.perf_counter() - t0
@@ -113,6 +118,26 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult
 
         save_episode_audio(Path(task.audio_dir), name, task.index, audio, env.fs)
     return result
+
+
+def _from_start(env: HearNavEnv, info: dict, start_pose: tuple[int, int]) -> float:
+    """S(pose_t, w_t) - S(pose_0, w_t) of the window just heard (0 at the start pose)."""
+    pose = (info["pose"]["cell"], info["pose"]["heading"])
+    if pose == start_pose:
+        return 0.0
+    at_start = env.unwrapped.scores_ahead([start_pose], 1, offset=-1)[0, 0]  # the window just heard
+    return float(info["si_sdr_db"] - at_start)
+
+
+def end_gain(env: HearNavEnv, end_pose: tuple[int, int], start_pose: tuple[int, int]) -> tuple[float, int]:
+    """Mean paired gain of the end pose over the start pose on the ``eval_windows`` windows after the episode
+    (:func:`hearnav.bench.oracle.paired_gains`), and how many of them were scored."""
+    env = env.unwrapped
+    if end_pose == start_pose:
+        scores = env.scores_ahead([start_pose], env.config.eval_windows)
+        return 0.0, int(np.sum(~np.isnan(scores)))
+    gains, scored = paired_gains(env.scores_ahead([end_pose, start_pose], env.config.eval_windows), 1)
+    return float(gains[0]), scored
 
 
 def _work(env: HearNavEnv, task: Task) -> EpisodeResult:

@@ -19,6 +19,7 @@ from hearnav.env.episode import (
     draw_episode,
     dry_signals,
 )
+from hearnav.env.gating import scored_windows, window_energies
 from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor, band_edges
 from hearnav.env.privileged import PrivilegedView
 from hearnav.env.scoring import SILENT_ENERGY, binaural_scores, window_scores
@@ -137,10 +138,15 @@ class HearNavEnv(gym.Env):
     ``hearnav.env.FlatObservation`` flattens the dictionary into one vector.
 
     ## Reward
-    ``si_sdr_after - si_sdr_before`` in dB: the separator's score on the window just heard minus its score on
-    the previous window (the first window is heard at reset). A window is scored after its first 20 ms, the
-    cross-fade from the previous pose, so a pose's score at a given time does not depend on the path to it. The rewards of an episode sum to the final minus
-    the starting SI-SDR. ``reward_clip`` clips each reward to +/- that many dB.
+    The paired reward ``S(pose_t, w_t) - S(pose_t-1, w_t)`` in dB: the separator's score on the window just
+    heard at the new pose minus its score on the same window at the previous pose, so the reward is the change
+    the move itself makes, measured on the same sound. The step renders the previous pose's window as well (a
+    second render; none when the pose did not change). Staying, turning into a wall's blocked move or a
+    collision earns exactly 0, and so does a window that is not scored. A window is scored after its first
+    20 ms, the cross-fade from the previous pose, so a pose's score at a given time does not depend on the path
+    to it. The rewards of an episode sum the moves' effects, each on its own window; they do not sum to the
+    final minus the starting score (that difference mostly follows the sound's content). ``reward_clip`` clips
+    each reward to +/- that many dB.
 
     ## Episode end
     Never terminated; truncated after ``budget`` steps.
@@ -153,9 +159,12 @@ class HearNavEnv(gym.Env):
     ``input_full_si_sdr_db`` (the unprocessed mixture at each ear against the same references: the input
     reference), ``pose`` (cell, x, y, heading index and degrees), ``collided``, ``target_active``, ``step``,
     ``scene`` and ``sources`` (role, spot, category, pool, voice, take, level). No wall-clock values.
-    A window in which the target is silent (an alarm's pause) has no SI-SDR: ``target_active`` is False and
-    all scores keep their previous values, so the reward is 0. An episode whose target starts in a pause
-    begins with the first window in which it sounds (at most 4 windows later).
+    ``before_si_sdr_db`` is the score of the window just heard at the previous pose (None after reset, after a
+    step that did not change the pose and in a window that is not scored). A window is not scored when the
+    target is silent in it (an alarm's pause) or quiet, more than 20 dB below its episode's median window
+    (:mod:`hearnav.env.gating`): ``target_active`` is False, all scores keep their previous values and the reward
+    is 0; ``quiet_windows`` counts such windows since reset. An episode whose target starts silent or quiet
+    begins with the first scored window (at most 4 windows later).
 
     ## Privileged access
     ``env.unwrapped.privileged`` (:class:`hearnav.env.privileged.PrivilegedView`) answers what no agent
@@ -168,7 +177,8 @@ class HearNavEnv(gym.Env):
     :class:`hearnav.env.config.EnvConfig`): ``scenes`` (a split, "procedural", or a list of names),
     ``procedural_pool``, ``target_category`` (a category or a list), ``distractors`` ([min, max]), ``sound_pool`` ("seen" or
     "unseen"), ``distractor_level_db`` ([low, high] relative to the target), ``min_start_distance`` (m),
-    ``step_s``, ``budget``, ``separator``, ``reward_clip``, ``n_bands``, ``n_segments``, ``patch_size``,
+    ``step_s``, ``budget``, ``eval_windows`` (windows after the episode on which the benchmark scores
+    its end and start poses), ``separator``, ``reward_clip``, ``n_bands``, ``n_segments``, ``patch_size``,
     ``fov_deg`` and ``acoustics`` (:class:`hearnav.acoustics.AcousticSettings` fields). Unknown options and
     out-of-range values raise :class:`hearnav.errors.ConfigError`, and so does any key of ``reset(options=...)``
     (reset takes no options) and a ``min_start_distance`` that no navigable cell meets for some target spot of
@@ -233,10 +243,12 @@ class HearNavEnv(gym.Env):
 
     def _begin(self):
         world, plan = self.world, self.plan
-        n = world.listening.signal_length(self.config.budget + 1 + MAX_LEAD_IN)
-        signals = dry_signals(plan, n, self.fs)
+        n_windows = self.config.budget + 1 + MAX_LEAD_IN + self.config.eval_windows
+        signals = dry_signals(plan, world.listening.signal_length(n_windows), self.fs)
         sources = [Source(p.spot, x) for p, x in zip(plan.sources, signals)]
         self._session = ListeningSession(world.listening, sources, target=0)
+        self._scored = scored_windows(window_energies(signals[0], world.listening.warmup, self.window_len,
+                                                      self._fade, n_windows))
         self.cell, self.heading = plan.start_cell, plan.start_heading
         self.steps = 0
         self._path = [(self.cell, self.heading)]
@@ -244,13 +256,15 @@ class HearNavEnv(gym.Env):
         self._poses = world.poses  # the scene's tables, memory-mapped from the store
         self._maps = get_maps(plan.scene, self.config.acoustics, self.config.patch_size, self._fov)
         self._source_info = [p.info(world.scene) for p in plan.sources]
-        self.si_sdr_db = None
+        self.si_sdr_db = self.before_si_sdr_db = None
+        self.quiet_windows = 0
         for _ in range(MAX_LEAD_IN + 1):  # a target that starts in a pause: listen on until it sounds
             self._hear(collided=False)
             if self.target_active:
                 break
+        self.quiet_windows = 0  # counted from the first scored window on
         if self.si_sdr_db is None:
-            raise ConfigError(f"the target ({plan.sources[0].category}) is silent for {MAX_LEAD_IN + 1} windows "
+            raise ConfigError(f"the target ({plan.sources[0].category}) is silent or quiet for {MAX_LEAD_IN + 1} windows "
                               f"(expected a sounding target); use longer step_s or another category")
         return self._obs(), self._info()
 
@@ -266,19 +280,26 @@ class HearNavEnv(gym.Env):
                 return self.step(int(action.reshape(-1)[0]))
             raise InvalidActionError(f"action must be an integer in [0, 3] ({', '.join(ACTION_NAMES)}), "
                                      f"got {action!r}")
-        before = self.si_sdr_db
+        before = (self.cell, self.heading)
         self.cell, self.heading, collided = next_pose(self.world.grid, self.cell, self.heading, int(action))
+        moved = (self.cell, self.heading) != before
+        # the previous pose on the window about to be heard: the paired reward's second render (none when still)
+        self.before_si_sdr_db = self.score_window(self.peek(*before), *before)[1] if moved else None
         self.steps += 1
         self._path.append((self.cell, self.heading))
         self._hear(collided)
-        reward = self.si_sdr_db - before
+        reward = 0.0
+        if moved and self.target_active and self.before_si_sdr_db is not None:
+            reward = self.si_sdr_db - self.before_si_sdr_db
         if self.config.reward_clip is not None:
             reward = float(np.clip(reward, -self.config.reward_clip, self.config.reward_clip))
         truncated = self.steps >= self.config.budget
         return self._obs(), float(reward), False, bool(truncated), self._info()
 
     def _hear(self, collided: bool) -> None:
-        """Listen to the next window; a window in which the target is silent keeps the previous scores."""
+        """Listen to the next window; a window that is not scored (the target silent or quiet) keeps the previous
+        scores."""
+        scored_now = self._scored_at(self._session.time)
         window = self._session.listen(self.cell, self.heading)
         self.collided = collided
         self._bearing = self.target_bearing(self.cell, self.heading)
@@ -289,8 +310,9 @@ class HearNavEnv(gym.Env):
         estimate = self.separator(scored.mixture, ctx, trusted=True)
         self._heard = Heard(window, scored, estimate)
         self._estimate_spec = ctx.spectrum_of(estimate)
-        scores = window_scores(estimate, scored.mixture, scored.early, scored.target_image)
+        scores = window_scores(estimate, scored.mixture, scored.early, scored.target_image) if scored_now else None
         self.target_active = scores is not None
+        self.quiet_windows += int(not self.target_active)
         if scores is not None:
             self.si_sdr_db, self.full_si_sdr_db, self.input_si_sdr_db, self.input_full_si_sdr_db = scores
 
@@ -316,10 +338,37 @@ class HearNavEnv(gym.Env):
                      ctx: SeparationContext | None = None) -> tuple[np.ndarray, float | None]:
         """The separator's (2, m) estimate of the target in a window heard at a pose, and its score in dB.
 
-        The score is None when the target is silent in the window (its early image has no energy).
+        The score is None when the window is not scored: the target is silent in it (its early image has no
+        energy) or quiet (:mod:`hearnav.env.gating`).
         """
         window = scored_part(window, self._fade)
-        return self._score_scored(window, ctx or self.context(cell, heading, window))
+        estimate, score = self._score_scored(window, ctx or self.context(cell, heading, window))
+        return estimate, score if self._scored_at(window.start - self._fade) else None
+
+    def _scored_at(self, time: int) -> bool:
+        """Whether the window starting at sample ``time`` is scored (not quiet, :mod:`hearnav.env.gating`)."""
+        k = (time - self.world.listening.warmup) // self.window_len
+        return 0 <= k < len(self._scored) and bool(self._scored[k])
+
+    def scores_ahead(self, poses: list[tuple[int, int]], n_windows: int, offset: int = 0) -> np.ndarray:
+        """Scores (dB) of poses on the ``n_windows`` windows that start ``offset`` windows after the one the next
+        step will hear; nothing moves or advances (privileged: the benchmark's end-of-episode scores and the
+        oracle bound reach it).
+
+        Returns
+        -------
+        (n_windows, len(poses)) float64; NaN in a window that is not scored.
+        """
+        session = self._session.fork(offset)
+        out = np.full((n_windows, len(poses)), np.nan)
+        for k in range(n_windows):
+            if self._scored_at(session.time):
+                for j, (cell, heading) in enumerate(poses):
+                    window = scored_part(session.peek(cell, heading), self._fade)
+                    score = self._score_scored(window, self.context(cell, heading, window))[1]
+                    out[k, j] = np.nan if score is None else score
+            session.advance()
+        return out
 
     def _score_scored(self, window: Window, ctx: SeparationContext) -> tuple[np.ndarray, float | None]:
         """:meth:`score_window` of a window already cut to its scored part."""
@@ -376,6 +425,8 @@ class HearNavEnv(gym.Env):
                      "heading_deg": math.degrees(grid.heading_angle(self.heading))},
             "collided": bool(self.collided),
             "target_active": bool(self.target_active),
+            "before_si_sdr_db": None if self.before_si_sdr_db is None else float(self.before_si_sdr_db),
+            "quiet_windows": int(self.quiet_windows),
             "step": int(self.steps),
             "scene": self.plan.scene,
             "sources": [dict(d) for d in self._source_info],

@@ -6,7 +6,8 @@ import json
 import numpy as np
 import pytest
 
-from hearnav.bench.oracle import OracleCache, oracle_bound, reachable
+from hearnav.bench.oracle import OracleCache, episode_bound, paired_gains, reachable
+from hearnav.bench.runner import end_gain
 from hearnav.env import Action, next_pose
 from tests.env.test_actions import Corridor
 
@@ -34,18 +35,30 @@ def test_reachable_poses_match_a_hand_count(steps):
 
 
 def test_the_bound_is_the_best_of_every_action_sequence(make_env):
-    # Brute force: with a budget of 3, play all 4^3 action sequences; the best final score must equal the
-    # bound, which the oracle finds by breadth-first search over poses instead (scores are path-independent
-    # because windows are scored after their cross-fade).
-    env = make_env(budget=3)
-    finals = []
+    # Brute force: with a budget of 3, play all 4^3 action sequences and score each end pose against the start
+    # pose on the windows after the episode, as the benchmark does; the best gain must equal the bound, which
+    # the oracle finds by breadth-first search over poses instead (scores are path-independent because windows
+    # are scored after their cross-fade), and no sequence may beat it.
+    env = make_env(budget=3, eval_windows=2)
+    gains = []
     for actions in itertools.product(list(Action), repeat=3):
-        env.reset(seed=11)
+        _, info = env.reset(seed=11)
+        start = (info["pose"]["cell"], info["pose"]["heading"])
         for a in actions:
             *_, info = env.step(a)
-        finals.append(info["si_sdr_db"])
-    bound = oracle_bound(env, 11)
-    assert bound == pytest.approx(max(finals), abs=1e-9)
+        gains.append(end_gain(env, (info["pose"]["cell"], info["pose"]["heading"]), start)[0])
+    bound = episode_bound(env, 11)
+    assert bound.gain_db == pytest.approx(max(gains), abs=1e-9)
+    assert bound.steps <= 3 and bound.gain_db >= 0.0  # staying put is reachable and gains exactly 0
+
+
+def test_paired_gains_by_hand():
+    # Two poses on three windows, the second window not scored (NaN): the start (index 1) gains 0, the other
+    # (1 - 0.5 + 4 - 1) / 2 = 1.75 over the two scored windows.
+    scores = np.array([[1.0, 0.5], [np.nan, np.nan], [4.0, 1.0]])
+    gains, scored = paired_gains(scores, 1)
+    assert gains.tolist() == [1.75, 0.0] and scored == 2
+    assert paired_gains(np.full((2, 2), np.nan), 0)[1] == 0
 
 
 def test_cache_round_trips_and_rewrites_atomically(tmp_path):

@@ -70,11 +70,35 @@ def test_same_seed_same_episode(make_env):
     assert c[0][2]["sources"] != a[0][2]["sources"] or c[0][2]["pose"] != a[0][2]["pose"]
 
 
-def test_rewards_sum_to_the_gain(make_env):
-    # Reward = SI-SDR after minus before, so an episode's rewards telescope to final minus start.
-    steps = _rollout(make_env(), 3)
-    total = sum(r for _, r, _ in steps)
-    assert total == pytest.approx(steps[-1][2]["si_sdr_db"] - steps[0][2]["si_sdr_db"], abs=1e-9)
+def test_the_reward_is_the_move_scored_on_the_same_window(make_env):
+    # The paired reward (issue 13's definition): r_t = S(pose_t, w_t) - S(pose_t-1, w_t). Check it against
+    # the previous pose scored again, independently, on the window just heard (scores_ahead one window back).
+    env = make_env(budget=12)
+    rng = np.random.default_rng(5)
+    _, info = env.reset(seed=5)
+    moved = 0
+    for _ in range(12):
+        before = (info["pose"]["cell"], info["pose"]["heading"])
+        _, reward, _, _, info = env.step(int(rng.integers(4)))
+        pose = (info["pose"]["cell"], info["pose"]["heading"])
+        if pose == before or not info["target_active"]:
+            assert reward == 0.0 and (info["before_si_sdr_db"] is None or pose != before)
+            continue
+        moved += 1
+        again = env.unwrapped.scores_ahead([before, pose], 1, offset=-1)[0]
+        assert info["before_si_sdr_db"] == pytest.approx(again[0], abs=1e-9)
+        assert info["si_sdr_db"] == pytest.approx(again[1], abs=1e-9)
+        assert reward == pytest.approx(again[1] - again[0], abs=1e-9)
+    assert moved >= 3
+
+
+def test_standing_still_earns_exactly_zero(make_env):
+    # Issue 13's check: a listener that stays earns exactly 0 in every step of a seeded episode, whatever the
+    # sound does (the window-to-window change of the score is not rewarded).
+    env = make_env(budget=10)
+    env.reset(seed=7)
+    rewards = [env.step(3)[1] for _ in range(10)]
+    assert rewards == [0.0] * 10
 
 
 def test_reward_clip(make_env):
@@ -113,7 +137,8 @@ def test_moves_turns_and_collisions(make_env):
 def test_info_contents(make_env):
     env = make_env()
     _, info = env.reset(seed=2)
-    keys = {"si_sdr_db", "full_si_sdr_db", "input_si_sdr_db", "input_full_si_sdr_db", "pose", "collided", "target_active", "step", "scene", "sources"}
+    keys = {"si_sdr_db", "full_si_sdr_db", "input_si_sdr_db", "input_full_si_sdr_db", "pose", "collided",
+            "target_active", "before_si_sdr_db", "quiet_windows", "step", "scene", "sources"}
     assert set(info) == keys | {"embodiment"}
     assert info["embodiment"] is env.embodiment
     assert info["sources"][0]["role"] == "target" and 2 <= len(info["sources"]) <= 4

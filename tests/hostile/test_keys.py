@@ -89,8 +89,8 @@ def test_an_edited_scene_recomputes_its_bounds_and_its_old_folder_is_refused(set
     assert _bench(suite, fresh, capsys)[0] == 0
     assert sorted(p.name for p in (private_cache / "oracle").iterdir()) == sorted(
         [f"oracle-{old_key}.json", f"oracle-{new_key}.json"])
-    old_bounds = [r["oracle_si_sdr_db"] for r in old_rows]
-    new_bounds = [r["oracle_si_sdr_db"] for r in read_rows(fresh / "episodes.jsonl")]
+    old_bounds = [r["oracle_gain_db"] for r in old_rows]
+    new_bounds = [r["oracle_gain_db"] for r in read_rows(fresh / "episodes.jsonl")]
     assert all(a != b for a, b in zip(old_bounds, new_bounds))  # recomputed, not the stale bound
 
     # rows, manifest and summary carry the key of the run that wrote them
