@@ -67,8 +67,9 @@ def failed_result(task: Task, reason: str, privileged: bool = False) -> EpisodeR
                          episode_seed=task.seed, oracle_gain_db=task.oracle, status="failed", error=reason)
 
 
-def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult:
-    """Play one episode and return its result (status "ok" or "failed")."""
+def run_episode(env: HearNavEnv, name: str, policy, task: Task, rewards: list | None = None) -> EpisodeResult:
+    """Play one episode and return its result (status "ok" or "failed"); each step's reward is appended to
+    ``rewards`` when it is given."""
     t0 = time.perf_counter()
     privileged = is_privileged(policy)
     obs, info = env.reset(seed=task.seed)
@@ -93,6 +94,8 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task) -> EpisodeResult
             obs, reward, _, truncated, info = env.step(action)
             steps += 1
             ret += reward
+            if rewards is not None:
+                rewards.append(reward)
             collisions += int(info["collided"])
             path += math.dist(before, (info["pose"]["x"], info["pose"]["y"]))
             best = max(best, info["si_sdr_db"])

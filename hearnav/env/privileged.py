@@ -67,6 +67,13 @@ class PrivilegedView:
         """:meth:`score` of several poses, (len(poses),)."""
         return np.array([self.score(c, h) for c, h in poses])
 
+    def scores_ahead(self, poses: list[tuple[int, int]], n_windows: int | None = None) -> np.ndarray:
+        """(n_windows, len(poses)) scores (dB) of poses on the next ``n_windows`` windows (default the
+        environment's ``eval_windows``), starting with the one the next step will hear; NaN where a window is
+        not scored (:meth:`hearnav.env.HearNavEnv.scores_ahead`)."""
+        env = self._env
+        return env.scores_ahead(poses, env.config.eval_windows if n_windows is None else n_windows)
+
     def last_window(self) -> dict[str, np.ndarray]:
         """What was heard in the last window: the binaural mixture (2, n), and over its scored part the
         separator's estimate (2, m), the target's early image (2, m, the reference) and its full image (2, m)."""

@@ -85,15 +85,17 @@ def test_approach_reaches_and_faces_the_target(make_env):
         assert not any(i["collided"] for i in out["infos"])
 
 
-def test_greedy_oracle_beats_standing_still(make_env):
-    env = make_env(budget=4)
-    def mean_score(name, seed):  # the mean over the episode's windows: what a step-by-step look-ahead maximises
-        return np.mean([i["si_sdr_db"] for i in run(env, name, seed)["infos"][1:]])
-
-    wins = [mean_score("greedy-oracle", seed) >= mean_score("still", seed) - 1e-9 for seed in range(5)]
-    # common practice: a one-step look-ahead on the true score does no worse than staying, in most episodes (one
-    # window's score swings with the sounds' content, so the episode's windows are averaged)
-    assert sum(wins) >= 4
+def test_greedy_oracle_gains_over_standing_still(make_env):
+    env = make_env(budget=4, eval_windows=4)
+    returns = []
+    for seed in range(5):
+        out = run(env, "greedy-oracle", seed)
+        returns.append(sum(i["si_sdr_db"] - i["before_si_sdr_db"] for i in out["infos"][1:]
+                           if i["before_si_sdr_db"] is not None and i["target_active"]))
+    # common practice: a look-ahead on the true paired score does no worse than staying (return exactly 0) in
+    # most episodes; its moves are judged on 4 windows, the reward on one, so a single move may still lose
+    assert sum(r >= -1e-9 for r in returns) >= 4, returns
+    assert any(r > 0 for r in returns), returns
 
 
 def test_face_arrival_faces_the_source_in_free_field(make_env):
