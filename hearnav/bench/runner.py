@@ -102,7 +102,7 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task, rewards: list | 
             if info["target_active"]:
                 along.append(_from_start(env, info, start_pose))
             if audio is not None:
-                audio.append(env.unwrapped.privileged.last_window())
+                audio.append(env.unwrapped.privileged.last_audio())
     except BaseException as exc:  # the policy's fault (workers ignore SIGINT): record it, never end the run
         result.status, result.error = "failed", describe(exc)
     final = info["si_sdr_db"]

@@ -74,6 +74,15 @@ class PrivilegedView:
         env = self._env
         return env.scores_ahead(poses, env.config.eval_windows if n_windows is None else n_windows)
 
+    def last_audio(self) -> dict[str, np.ndarray]:
+        """The last window in full, its cross-fade included, for listening: the binaural mixture, the separator's
+        estimate over the whole window and the target's early image, each (2, window_len) and sample-aligned."""
+        env = self._env
+        window = env.heard.window
+        ctx = env.context(env.cell, env.heading, window)
+        return {"mixture": window.mixture.copy(), "reference": window.early.copy(),
+                "estimate": np.asarray(env.separator(window.mixture, ctx, trusted=True), np.float32).copy()}
+
     def last_window(self) -> dict[str, np.ndarray]:
         """What was heard in the last window: the binaural mixture (2, n), and over its scored part the
         separator's estimate (2, m), the target's early image (2, m, the reference) and its full image (2, m)."""

@@ -8,7 +8,11 @@ import numpy as np
 import pytest
 import yaml
 
+import pyloudnorm
+from scipy.signal import correlate
+
 from hearnav.bench import run
+from hearnav.bench.audio import true_peak_db
 from hearnav.bench.stats import Summary
 from hearnav.cli import main
 from hearnav.report import format_table
@@ -184,11 +188,23 @@ def test_save_audio_writes_normalised_wavs(suite_file, tmp_path):
     files = sorted((out / "audio" / "still").glob("*.wav"))
     assert [f.name for f in files] == ["episode0000-estimate.wav", "episode0000-mixture.wav",
                                        "episode0000-reference.wav"]
-    mixture, fs = sf.read(files[1])
-    assert fs == 16000 and mixture.ndim == 2 and mixture.shape[1] == 2
-    for f in files:  # peak -1 dBFS, as the README promises
-        data, _ = sf.read(f)
-        assert 20 * np.log10(np.abs(data).max()) == pytest.approx(-1.0, abs=1e-3)
+    tracks = {f.name.split("-")[1][:-4]: sf.read(f) for f in files}
+    fs = tracks["mixture"][1]
+    assert fs == 16000 and tracks["mixture"][0].ndim == 2 and tracks["mixture"][0].shape[1] == 2
+    # every track has the same length: every step's window in full, 0.5 s each
+    rows = _rows(out)
+    assert {len(data) for data, _ in tracks.values()} == {rows[0]["steps"] * 8000}
+    for data, _ in tracks.values():  # EBU R 128: -23 LUFS unless the -1 dBTP true-peak ceiling turned it down
+        loudness = pyloudnorm.Meter(fs).integrated_loudness(data)
+        assert loudness <= -23.0 + 0.05 and true_peak_db(data) <= -1.0 + 1e-6
+        assert loudness >= -23.0 - 0.05 or true_peak_db(data) == pytest.approx(-1.0, abs=1e-6)
+    # sample-aligned: the mixture's cross-correlation with the reference peaks at lag 0 (the reference is part of
+    # the mixture; with `still` the estimate is the identity's, the mixture itself)
+    mix, ref = tracks["mixture"][0][:, 0], tracks["reference"][0][:, 0]
+    corr = correlate(mix, ref[4000:-4000], mode="valid", method="fft")
+    assert int(np.argmax(np.abs(corr))) == 4000
+    assert np.allclose(tracks["estimate"][0] / np.abs(tracks["estimate"][0]).max(),
+                       tracks["mixture"][0] / np.abs(tracks["mixture"][0]).max(), atol=1e-5)
 
 
 def test_a_killed_run_resumes_without_torn_or_repeated_rows(suite_file, tmp_path):
