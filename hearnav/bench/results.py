@@ -73,7 +73,9 @@ class EpisodeResult:
     scored steps of S(pose_t, w_t) - S(pose_0, w_t) (how soon the gain came); ``oracle_gain_db`` the oracle
     bound's gain (:mod:`hearnav.bench.oracle`); ``normalised_gain`` is gain_db / oracle_gain_db, ``None`` when the
     bound is unknown or not above 0. ``start_*`` and ``final_*`` scores are those of the first and last windows
-    heard; ``quiet_windows`` counts the episode's windows that were not scored (:mod:`hearnav.env.gating`). ``extra`` keeps fields this version does not know (rows written
+    heard; ``quiet_windows`` counts the episode's windows that were not scored (:mod:`hearnav.env.gating`).
+    ``poses`` lists the [cell, heading] of the start and of every step, ``collided_steps`` the steps (1-based) whose
+    move was blocked; ``target_category`` and ``distractor_categories`` name the episode's sounds. ``extra`` keeps fields this version does not know (rows written
     by other versions), so they survive a round trip. ``run_key`` is the result key of the run that wrote
     the row (:mod:`hearnav.bench.keys`).
     """
@@ -103,6 +105,10 @@ class EpisodeResult:
     steps: int | None = None
     collisions: int | None = None
     final_pose: dict | None = None
+    poses: list | None = None
+    collided_steps: list | None = None
+    target_category: str | None = None
+    distractor_categories: list | None = None
     start_xy: list | None = None
     wall_time_s: float | None = None
     run_key: str | None = None

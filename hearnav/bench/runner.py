@@ -80,6 +80,10 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task, rewards: list | 
                            start_input_full_si_sdr_db=info["input_full_si_sdr_db"])
     start_xy = (info["pose"]["x"], info["pose"]["y"])
     start_pose = (info["pose"]["cell"], info["pose"]["heading"])
+    roles = [(src["role"], src["category"]) for src in info["sources"]]
+    result.target_category = next(c for r, c in roles if r == "target")
+    result.distractor_categories = [c for r, c in roles if r != "target"]
+    result.poses, result.collided_steps = [list(start_pose)], []
     best, ret, collisions, path, steps, along = start, 0.0, 0, 0.0, 0, []
     audio = [] if task.audio_dir else None
     try:
@@ -97,6 +101,9 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task, rewards: list | 
             if rewards is not None:
                 rewards.append(reward)
             collisions += int(info["collided"])
+            result.poses.append([info["pose"]["cell"], info["pose"]["heading"]])
+            if info["collided"]:
+                result.collided_steps.append(steps)
             path += math.dist(before, (info["pose"]["x"], info["pose"]["y"]))
             best = max(best, info["si_sdr_db"])
             if info["target_active"]:

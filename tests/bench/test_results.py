@@ -219,7 +219,9 @@ WRITTEN_ROW = {"policy": "random-walk", "privileged": False, "episode_index": 2,
                "best_si_sdr_db": -9.5, "gain_db": 2.5, "mean_gain_db": 1.25, "eval_windows_scored": 8,
                "quiet_windows": 1, "episode_return": 2.5, "normalised_gain": 0.77,
                "path_length_m": 1.5, "steps": 20, "collisions": 1,
-               "final_pose": {"cell": 4, "heading": 1, "x": 1.0, "y": 2.5}, "start_xy": [0.5, 2.0],
+               "final_pose": {"cell": 4, "heading": 1, "x": 1.0, "y": 2.5}, "poses": [[3, 1], [4, 1]],
+               "collided_steps": [], "target_category": "talker", "distractor_categories": ["hum", "noise"],
+               "start_xy": [0.5, 2.0],
                "wall_time_s": 0.75, "run_key": "e75931e1cb882ff2"}
 
 
