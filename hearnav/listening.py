@@ -21,6 +21,8 @@ from hearnav.errors import ConfigError
 
 #: Default cross-fade after a move, in seconds.
 FADE_S = 0.02
+#: Poses whose early-part spectra a world keeps (about 40 KB each at 16 kHz).
+EARLY_CACHE = 512
 #: Rows pocketfft transforms together (float32 vector width): mixing pads its row counts to multiples.
 ROW_BLOCK = 4
 
@@ -137,6 +139,8 @@ class ListeningWorld:
         self.early_len = int(tables.early.shape[-1])
         self.n_early = sfft.next_fast_len(self.span + self.early_len - 1, real=True)  # the early image's grid
         self._buffers: dict[str, np.ndarray] = {}
+        self._early_specs: dict[tuple[int, int, int], np.ndarray] = {}  # early-part spectra, most recent last
+        self._dry: tuple[Source, int, np.ndarray] | None = None  # the dry target's spectrum on the early grid
 
     @classmethod
     def of(cls, responses: Responses, window_len: int, fade_s: float = FADE_S) -> ListeningWorld:
@@ -205,18 +209,32 @@ class ListeningWorld:
 
     def early_image(self, cell: int, heading: int, source: Source, start: int) -> np.ndarray:
         """(2, span) the source's early image at the two ears over [start, start + span): its dry signal through
-        the early parts of its responses (linear convolution on the early grid)."""
+        the early parts of its responses (linear convolution on the early grid).
+
+        The dry signal's spectrum is kept for the last (source, start), so the poses scored on one window (the
+        paired reward's two, the look-ahead's many) transform it once; the early parts' spectra are kept for the
+        ``EARLY_CACHE`` poses used last."""
         lead = self.early_len - 1
-        block = self._scratch("early", (ROW_BLOCK, self.n_early), np.float32)  # dry target, two early parts, zeros
-        a, b = max(start - lead, 0), min(start + self.span, len(source.signal))
-        block[0, : self.span + lead] = 0
-        if b > a:
-            block[0, a - (start - lead): b - (start - lead)] = source.signal[a:b]
-        block[1:3, : self.early_len] = self._early[cell, heading, source.spot]
-        spec = sfft.rfft(block, axis=-1)
-        spec[1:3] *= spec[0]
-        spec[0] = spec[3] = 0
-        return sfft.irfft(spec, self.n_early, axis=-1)[1:3, lead: lead + self.span]
+        if self._dry is None or self._dry[0] is not source or self._dry[1] != start:
+            block = self._scratch("early", (self.n_early,), np.float32)
+            a, b = max(start - lead, 0), min(start + self.span, len(source.signal))
+            block[: self.span + lead] = 0
+            if b > a:
+                block[a - (start - lead): b - (start - lead)] = source.signal[a:b]
+            self._dry = (source, start, sfft.rfft(block))
+        spec = self._early_spectrum(cell, heading, source.spot) * self._dry[2]
+        return sfft.irfft(spec, self.n_early, axis=-1)[:, lead: lead + self.span]
+
+    def _early_spectrum(self, cell: int, heading: int, spot: int) -> np.ndarray:
+        """(2, F_early) spectra of a pose's early parts on the early grid (kept for the poses used last)."""
+        key = (cell, heading, spot)
+        spec = self._early_specs.pop(key, None)
+        if spec is None:
+            spec = sfft.rfft(self._early[cell, heading, spot], self.n_early, axis=-1)
+            if len(self._early_specs) >= EARLY_CACHE:
+                del self._early_specs[next(iter(self._early_specs))]
+        self._early_specs[key] = spec
+        return spec
 
 
 def _rows(n: int) -> int:
