@@ -152,7 +152,7 @@ class HearNavEnv(gym.Env):
     separation-only score against the full reverberant image at each ear), ``input_si_sdr_db`` and
     ``input_full_si_sdr_db`` (the unprocessed mixture at each ear against the same references: the input
     reference), ``pose`` (cell, x, y, heading index and degrees), ``collided``, ``target_active``, ``step``,
-    ``scene`` and ``sources`` (role, spot, category, pool, voice, take, level). No wall-clock values.
+    ``scene`` and ``sources`` (role, spot, category, pool, voice, take, offset, level). No wall-clock values.
     A window in which the target is silent (an alarm's pause) has no SI-SDR: ``target_active`` is False and
     all scores keep their previous values, so the reward is 0. An episode whose target starts in a pause
     begins with the first window in which it sounds (at most 4 windows later).
