@@ -1,7 +1,12 @@
-"""env.step rate of the default configuration, against its floor and against re-simulating the room.
+"""env.step rate of the default configuration with and without resets, against its floor and against
+re-simulating the room.
 
 In one process it measures:
-- steps per second of HearNavEnv (default config) over seeded random-action episodes, after a warm-up;
+- the first-load cost of the dry sounds: rendering every voice of the configured pool into a fresh, empty clip
+  store (a temporary folder: what the first use of a cache pays once), then opening them from HEARNAV_CACHE;
+- the time to open every scene's tables once (a process pays it once: each part's CRC-32 is checked);
+- steps per second of HearNavEnv (default config) over seeded random-action episodes, after a warm-up: with
+  resets counted (what training pays) and env.step alone, and the mean reset time;
 - the floor for the same windows: bare FFT mixing from cached response spectra (one FFT of the dry segments,
   padded to a multiple of four rows as the environment does so pocketfft transforms them together, a product
   per source, the inverse FFT of the two ears) plus one STFT/ISTFT pair;
@@ -29,12 +34,15 @@ import numpy as np  # noqa: E402
 import scipy.fft as sfft  # noqa: E402
 
 
-def run_episodes(env, seeds: list[int]) -> tuple[float, int, list]:
-    """Seconds spent in env.step, steps taken, and (world, cell, heading, time) of every step for the floor."""
-    spent, steps, record = 0.0, 0, []
+def run_episodes(env, seeds: list[int]) -> tuple[float, float, int, list]:
+    """Seconds spent in env.step and in env.reset, steps taken, and (world, cell, heading, time) of every step for
+    the floor."""
+    spent, reset_s, steps, record = 0.0, 0.0, 0, []
     for seed in seeds:
         rng = np.random.default_rng(seed)
+        t0 = time.perf_counter()
         env.reset(seed=seed)
+        reset_s += time.perf_counter() - t0
         truncated = False
         while not truncated:
             action = int(rng.integers(4))
@@ -43,7 +51,36 @@ def run_episodes(env, seeds: list[int]) -> tuple[float, int, list]:
             spent += time.perf_counter() - t0
             steps += 1
             record.append((env.world, env.sources, env.cell, env.heading, env.heard.window.start))
-    return spent, steps, record
+    return spent, reset_s, steps, record
+
+
+def first_load(env) -> None:
+    """Print the time to render the configured pool's clips into an empty store, then to open them from the cache."""
+    import tempfile
+
+    from hearnav.tables import sounds as clips
+
+    cfg, n = env.config, env.sources[0].signal.size  # every source of an episode is as long as the clips
+    with tempfile.TemporaryDirectory(prefix="hearnav-clips-") as tmp:
+        t0 = time.perf_counter()
+        voices = clips.prerender(cfg.sound_categories, cfg.sound_pool, n, env.fs, Path(tmp))
+        cold = time.perf_counter() - t0
+        clips.forget_opened()
+    t0 = time.perf_counter()
+    clips.prerender(cfg.sound_categories, cfg.sound_pool, n, env.fs)
+    print(f"first load of the clip store: {cold:.1f} s cold ({voices} voices x {clips.TAKES} takes of "
+          f"{clips.clip_length(n, env.fs) / env.fs:g} s, {cfg.sound_pool} pool); {time.perf_counter() - t0:.2f} s "
+          f"from HEARNAV_CACHE (built there if absent)")
+
+
+def open_scenes(env) -> None:
+    """Open every scene's world and maps once, as a long training run has after its first episodes."""
+    from hearnav.env.worlds import get_maps, get_world
+
+    cfg = env.config
+    for name in env.scene_names:
+        get_world(name, cfg.acoustics, env.window_len)
+        get_maps(name, cfg.acoustics, cfg.patch_size, float(np.deg2rad(cfg.fov_deg)))
 
 
 def floor_time(record: list) -> float:
@@ -110,22 +147,32 @@ def main() -> None:
     env.step(0)
     print(f"first reset and step of the process: {time.perf_counter() - t0:.2f} s (tables opened from the store, "
           f"built first if absent)")
+    first_load(env)
+    t0 = time.perf_counter()
+    open_scenes(env)
+    print(f"opening the tables of all {len(env.scene_names)} scenes: {time.perf_counter() - t0:.1f} s (once per "
+          f"process: each part's CRC-32 is checked; not counted in the resets below)")
     t0 = time.perf_counter()
     run_episodes(env, seeds[: args.warmup])
     print(f"warm-up: {args.warmup} episodes in {time.perf_counter() - t0:.1f} s (scene builds come from the cache)")
     # The env and the floor alternate in chunks of episodes, so a change of machine speed during the run
     # (these machines are shared) weighs on both alike. A chunk's windows (about 40 MB of response spectra)
     # do not fit in the last-level cache, so the floor does not find the env's data cached.
-    step_total = floor_total = 0.0
+    step_total = floor_total = reset_total = 0.0
     steps = 0
     measured = seeds[args.warmup:]
     for k in range(0, len(measured), args.chunk):
-        spent, n, record = run_episodes(env, measured[k: k + args.chunk])
+        spent, reset_s, n, record = run_episodes(env, measured[k: k + args.chunk])
         step_total += spent
+        reset_total += reset_s
         steps += n
         floor_total += floor_time(record)
     step_s, floor_s = step_total / steps, floor_total / steps
     resim_s = resim_time(env, args.resim)
+    paid_s = (step_total + reset_total) / steps
+    print(f"with resets: {1 / paid_s:8.1f} steps/s ({paid_s * 1e3:.2f} ms per step, {steps / len(measured):.0f} steps "
+          f"per episode)  [goal >= 500 steps/s]")
+    print(f"env.reset: {reset_total / len(measured) * 1e3:.1f} ms mean over {len(measured)} resets  [goal <= 10 ms]")
     print(f"env.step: {1 / step_s:8.1f} steps/s ({step_s * 1e3:.2f} ms)  [goal >= 300 steps/s]")
     print(f"floor:    {1 / floor_s:8.1f} steps/s ({floor_s * 1e3:.2f} ms) bare FFT mixing + one STFT/ISTFT pair")
     print(f"ratio step / floor: {step_s / floor_s:.2f}x  [goal <= 1.5x]")

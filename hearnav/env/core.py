@@ -158,7 +158,7 @@ class HearNavEnv(gym.Env):
     separation-only score against the full reverberant image at each ear), ``input_si_sdr_db`` and
     ``input_full_si_sdr_db`` (the unprocessed mixture at each ear against the same references: the input
     reference), ``pose`` (cell, x, y, heading index and degrees), ``collided``, ``target_active``, ``step``,
-    ``scene`` and ``sources`` (role, spot, category, pool, voice, take, level). No wall-clock values.
+    ``scene`` and ``sources`` (role, spot, category, pool, voice, take, offset, level). No wall-clock values.
     ``before_si_sdr_db`` is the score of the window just heard at the previous pose (None after reset, after a
     step that did not change the pose and in a window that is not scored). A window is not scored when the
     target is silent in it (an alarm's pause) or quiet, more than 20 dB below its episode's median window

@@ -12,7 +12,7 @@ from hearnav.env.config import EnvConfig
 from hearnav.errors import ConfigError, short_repr, unknown_name
 from hearnav.scene.grid import Grid
 from hearnav.scene.model import Scene
-from hearnav.tables.sounds import dry_signal
+from hearnav.tables.sounds import TAKES, dry_signal
 
 
 @dataclass(frozen=True)
@@ -23,14 +23,16 @@ class SourcePlan:
     category: str
     pool: str
     voice: int
-    take: int
+    take: int  # one of the voice's rendered takes, 0 <= take < hearnav.tables.sounds.TAKES
+    offset: int  # the sound starts at sample offset % its length (the take loops)
     level_db: float
     role: str  # "target" or "distractor"
 
     def info(self, scene: Scene) -> dict:
         """A plain dict for info (no arrays)."""
         return {"role": self.role, "spot": scene.spots[self.spot].name, "category": self.category,
-                "pool": self.pool, "voice": self.voice, "take": self.take, "level_db": round(self.level_db, 6)}
+                "pool": self.pool, "voice": self.voice, "take": self.take, "offset": self.offset,
+                "level_db": round(self.level_db, 6)}
 
 
 @dataclass(frozen=True)
@@ -120,16 +122,19 @@ def draw_episode(rng: np.random.Generator, cfg: EnvConfig, scene_name: str, scen
         cats = target_options(spot) if role == "target" else allowed_categories(scene, spot, cfg.sound_categories)
         category = str(rng.choice(cats))
         voice = int(rng.integers(sounds.pool_size(category, cfg.sound_pool)))
-        take = int(rng.integers(2**31 - 1))
+        take = int(rng.integers(TAKES))
+        offset = int(rng.integers(2**31 - 1))
         level = 0.0 if role == "target" else float(rng.uniform(*cfg.distractor_level_db))
-        plans.append(SourcePlan(spot, category, cfg.sound_pool, voice, take, level, role))
+        plans.append(SourcePlan(spot, category, cfg.sound_pool, voice, take, offset, level, role))
     start = _start(grid, scene.spots[target].position[:2], cfg.min_start_distance, rng)
     heading = int(rng.integers(grid.n_headings))
     return EpisodePlan(scene_name, tuple(plans), start, heading)
 
 
 def dry_signals(plan: EpisodePlan, n_samples: int, fs: int) -> list[np.ndarray]:
-    """Dry signals of every source, level-adjusted, ``n_samples`` long (each clip generated once into the store,
-    :func:`hearnav.tables.dry_signal`)."""
-    return [(dry_signal(s.category, s.pool, s.voice, s.take, n_samples, fs) * np.float32(10 ** (s.level_db / 20)))
-            .astype(np.float32) for s in plan.sources]
+    """Dry signals of every source, level-adjusted, ``n_samples`` long: excerpts of the voices' takes, rendered
+    once into the store (:func:`hearnav.tables.dry_signal`)."""
+    signals = [dry_signal(s.category, s.pool, s.voice, s.take, s.offset, n_samples, fs) for s in plan.sources]
+    for s, x in zip(plan.sources, signals):
+        x *= np.float32(10 ** (s.level_db / 20))
+    return signals

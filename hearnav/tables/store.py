@@ -13,6 +13,7 @@ memory maps: every process maps the same pages of the page cache, and no process
 from __future__ import annotations
 
 import errno
+import functools
 import hashlib
 import inspect
 import json
@@ -59,7 +60,15 @@ def digest(*parts: object) -> str:
 
 
 def source_digest(*sources: object) -> str:
-    """SHA-256 of source code (modules, functions or file paths), so a part built by other code is never reused."""
+    """SHA-256 of source code (modules, functions or file paths), so a part built by other code is never reused.
+
+    Read once per process (a key is computed at every reset): the code a process runs does not change.
+    """
+    return _source_digest(sources)
+
+
+@functools.lru_cache(maxsize=256)
+def _source_digest(sources: tuple) -> str:
     h = hashlib.sha256()
     for source in sources:
         if callable(source):
@@ -242,21 +251,19 @@ def open_part(folder: Path, key: str, names: tuple[str, ...], build: Callable[[P
     ----------
     folder : the part's folder; key : everything the part depends on (checked against its manifest).
     names : arrays the part must hold. build : fills a :class:`PartWriter` with the part.
-    keep : remember the opened part for this process (tables); clips are opened afresh each time.
+    keep : remember the opened part for this process (tables); clips keep their own memo
+        (:mod:`hearnav.tables.sounds`), so they do not push tables out of it.
     report : called with a one-line message when a damaged part is rebuilt.
     """
     if keep and folder in _open:
         return _open[folder]
     part = _try_read(folder, key, names, report)
     if part is None:
-        if keep:
-            with files.build_lock(folder, PLACE):
-                part = _try_read(folder, key, names, None)  # another process may have built it meanwhile
-                if part is None:
-                    remove_leftovers(folder)
-                    part = _build(folder, key, names, build)
-        else:
-            part = _build(folder, key, names, build)
+        with files.build_lock(folder, PLACE):
+            part = _try_read(folder, key, names, None)  # another process may have built it meanwhile
+            if part is None:
+                remove_leftovers(folder)
+                part = _build(folder, key, names, build)
     if keep:
         while len(_open) >= MAX_OPEN:
             del _open[next(iter(_open))]
