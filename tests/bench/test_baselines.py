@@ -107,6 +107,26 @@ def test_approach_walks_to_the_best_pose_just_outside_the_ring(make_env):
         assert not any(i["collided"] for i in out["infos"])
 
 
+def test_approach_chooses_the_edge_pose_the_separator_scores_best(make_env):
+    env = make_env(budget=40)
+    obs, info = env.reset(seed=1)
+    view = env.unwrapped.privileged
+    _, policy = load_policy("approach")
+    policy.reset(obs, {**info, "privileged": view})
+    policy.act(obs, {**info, "privileged": view})  # chooses its goal on the window the next step will hear
+    depth, todo = {tuple(view.pose): 0}, [tuple(view.pose)]
+    for pose in todo:  # breadth-first over poses (Moore 1959)
+        for action in range(3):
+            nxt = tuple(view.next_pose(*pose, action))
+            if nxt not in depth:
+                depth[nxt] = depth[pose] + 1
+                todo.append(nxt)
+    dist = {c: _target_distance(env, c) for c, _ in depth}
+    edge = [p for p in depth if dist[p[0]] <= min(dist.values()) + view.grid.spacing + 1e-9 and depth[p] <= 40]
+    assert policy.goal in edge
+    assert view.score(*policy.goal) == max(view.score(*p) for p in edge)
+
+
 def test_greedy_oracle_beats_standing_still(make_env):
     env = make_env(budget=4)
     def mean_score(name, seed):  # the mean over the episode's windows: what a step-by-step look-ahead maximises
@@ -126,8 +146,9 @@ def test_face_arrival_faces_the_source_in_free_field(make_env):
     assert sum(e <= 45.0 for e in errors) >= 4, errors
 
 
-def test_follow_bearing_holds_at_the_ring_edge_facing_the_target_in_an_open_scene(make_env):
-    env = make_env(scenes=[ANECHOIC], budget=30, **QUIET_DISTRACTOR)
+@pytest.mark.parametrize("cue", ["bearing", "position"])  # in free field both give the spot's bearing
+def test_follow_bearing_holds_at_the_ring_edge_facing_the_target_in_an_open_scene(make_env, cue):
+    env = make_env(scenes=[ANECHOIC], budget=30, target_cue=cue, **QUIET_DISTRACTOR)
     step = 360.0 / 4
     for seed in range(4):
         out = run(env, "follow-bearing", seed=seed)
@@ -151,3 +172,11 @@ def test_follow_bearing_needs_a_bearing(make_env):
     assert str(caught.value) == ("follow-bearing needs a target bearing in observation['target'] (expected "
                                  "target_cue 'bearing' or 'position', got all zeros: target_cue 'none'); make the "
                                  "environment with target_cue='bearing'")
+
+
+@pytest.mark.parametrize("name", ["still", "face-arrival", "random-walk"])
+def test_baselines_without_a_cue_act_alike_under_every_cue(make_env, name):
+    # still, face-arrival (binaural features only) and random-walk (the map only) never read the target cue:
+    # they keep their meaning, and their actions, whatever the environment gives
+    actions = [run(make_env(target_cue=cue), name, seed=2)["actions"] for cue in ("bearing", "none", "position")]
+    assert actions[0] == actions[1] == actions[2]
