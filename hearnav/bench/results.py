@@ -87,6 +87,7 @@ class EpisodeResult:
     privileged: bool = False
     episode_index: int | None = None
     scene: str | None = None
+    target_cue: str | None = None  # the environment's target_cue
     oracle_gain_db: float | None = None
     start_si_sdr_db: float | None = None
     start_input_si_sdr_db: float | None = None

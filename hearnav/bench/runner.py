@@ -75,7 +75,8 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task, rewards: list | 
     obs, info = env.reset(seed=task.seed)
     start = info["si_sdr_db"]
     result = EpisodeResult(policy=name, privileged=privileged, episode_index=task.index, episode_seed=task.seed,
-                           oracle_gain_db=task.oracle, scene=info["scene"], start_si_sdr_db=start,
+                           oracle_gain_db=task.oracle, scene=info["scene"], target_cue=env.unwrapped.config.target_cue,
+                           start_si_sdr_db=start,
                            start_input_si_sdr_db=info["input_si_sdr_db"], start_full_si_sdr_db=info["full_si_sdr_db"],
                            start_input_full_si_sdr_db=info["input_full_si_sdr_db"])
     start_xy = (info["pose"]["x"], info["pose"]["y"])

@@ -37,6 +37,11 @@ class EnvConfig(BaseModel):
     sound_pool: Literal["seen", "unseen"] = "seen"
     distractor_level_db: tuple[StrictFloat, StrictFloat] = Field(default=(-6.0, 6.0),
                                                      description="distractor level relative to the target, dB")
+    target_cue: Literal["bearing", "none", "position"] = Field(
+        default="bearing", description="what obs['target'] gives: the earliest arrival's bearing, nothing, or the "
+                                       "spot's distance and bearing")
+    standoff_m: StrictFloat = Field(default=1.0, ge=0.0, le=5.0,
+                                    description="metres around each source's spot the listener may not enter")
     min_start_distance: StrictFloat = Field(default=2.0, ge=0.0, le=50.0, description="metres from the target spot")
     step_s: StrictFloat = Field(default=0.5, ge=0.05, le=4.0, description="seconds of sound per step")
     budget: StrictInt = Field(default=20, ge=1, le=1000, description="steps before truncation")

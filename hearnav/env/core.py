@@ -23,6 +23,7 @@ from hearnav.env.gating import scored_windows, window_energies
 from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor, band_edges
 from hearnav.env.privileged import PrivilegedView
 from hearnav.env.scoring import SILENT_ENERGY, binaural_scores, window_scores
+from hearnav.env.standoff import StandoffMoves, ring_cells, ring_patch
 from hearnav.env.worlds import World, get_maps, get_world, scene_list
 from hearnav.errors import ConfigError, HearnavError, did_you_mean, short_repr
 from hearnav.listening import FADE_S, ListeningSession, Source, Window
@@ -112,7 +113,7 @@ class HearNavEnv(gym.Env):
 
     | action | meaning |
     |---|---|
-    | 0 | forward one cell along the heading (a move into a wall keeps the pose; info["collided"] is True) |
+    | 0 | forward one cell along the heading (a move into a wall or into the stand-off ring keeps the pose; info["collided"] is True) |
     | 1 | turn left by one heading step (90 degrees with 4 headings, 45 with 8) |
     | 2 | turn right by one heading step |
     | 3 | stay |
@@ -131,11 +132,23 @@ class HearNavEnv(gym.Env):
     equal segments and summed over each band's bins. IPDs are the angles of the band-summed cross-spectra. The
     estimate's levels come from the separator's output spectrum when it synthesised the estimate through
     ``SeparationContext.synthesise`` (every built-in does), else from the STFT of the returned estimate.
-    | map | (2, P, P) | egocentric map, row 0 ahead, column 0 left: 1 = not navigable; 1 = a source in line of sight inside the field of view ``fov_deg`` | [0, 1] |
-    | target | (3,) | distance to the target spot (m), sin and cos of its bearing relative to the heading (counter-clockwise) | [0, 50], [-1, 1] |
+    | map | (2, P, P) | egocentric map, row 0 ahead, column 0 left: 1 = cannot be entered (not navigable, or in the stand-off ring); 1 = a source in line of sight inside the field of view ``fov_deg`` | [0, 1] |
+    | target | (3,) | the target cue (``target_cue``, below): distance (m), sin and cos of a bearing relative to the heading (counter-clockwise) | [0, 50], [-1, 1] |
     | budget | (1,) | fraction of the step budget left | [0, 1] |
 
     ``hearnav.env.FlatObservation`` flattens the dictionary into one vector.
+
+    What ``target`` tells about the target (``target_cue``; the keys, shapes and bounds are the same for
+    every cue, and entries a cue does not give are 0):
+
+    | target_cue | distance | bearing |
+    |---|---|---|
+    | ``bearing`` (default) | 0 | of the target's earliest arriving path, as a direction-of-arrival tracker would give it: the spot's own bearing in line of sight; when a wall blocks the straight line, the direction the earliest reflection arrives from (through a doorway it points towards the doorway). It is the direction the separator steers at (``PoseTables.arrival``) |
+    | ``none`` | 0 | sin = cos = 0 |
+    | ``position`` (easier) | to the target spot, capped at 50 m | of the target spot, as a straight line |
+
+    The map never tells the target from the distractors: its source channel marks every source alike and
+    every source has a ring, whatever the cue.
 
     ## Reward
     The paired reward ``S(pose_t, w_t) - S(pose_t-1, w_t)`` in dB: the separator's score on the window just
@@ -150,6 +163,13 @@ class HearNavEnv(gym.Env):
 
     ## Episode end
     Never terminated; truncated after ``budget`` steps.
+
+    ## Stand-off ring
+    Cells whose centre is closer than ``standoff_m`` (default 1 m) to the spot of any source of the episode
+    (target or distractor) cannot be entered: a robot does not walk into a person, and the far-field head model
+    of the responses holds. A forward move into the ring keeps the pose and counts as a collision, the map shows
+    the ring's cells as not navigable, and the start cell lies outside every ring
+    (:mod:`hearnav.env.standoff`). ``privileged.next_pose`` and the oracle bound move the same way.
 
     ## Info
     At reset, ``embodiment`` (:class:`hearnav.env.embodiment.Embodiment`: sampling rate, window, headings, head
@@ -176,14 +196,16 @@ class HearNavEnv(gym.Env):
     configs/env/ (e.g. "default") or a dict; keyword options override it. Options (see
     :class:`hearnav.env.config.EnvConfig`): ``scenes`` (a split, "procedural", or a list of names),
     ``procedural_pool``, ``target_category`` (a category or a list), ``distractors`` ([min, max]), ``sound_pool`` ("seen" or
-    "unseen"), ``distractor_level_db`` ([low, high] relative to the target), ``min_start_distance`` (m),
-    ``step_s``, ``budget``, ``eval_windows`` (windows after the episode on which the benchmark scores
-    its end and start poses), ``separator``, ``reward_clip``, ``n_bands``, ``n_segments``, ``patch_size``,
+    "unseen"), ``distractor_level_db`` ([low, high] relative to the target), ``target_cue`` ("bearing", "none" or
+    "position"), ``standoff_m`` (m, 0 to 5), ``min_start_distance`` (m), ``step_s``, ``budget``, ``eval_windows``
+    (windows after the episode on which the benchmark scores its end and start poses), ``separator``,
+    ``reward_clip``, ``n_bands``, ``n_segments``, ``patch_size``,
     ``fov_deg`` and ``acoustics`` (:class:`hearnav.acoustics.AcousticSettings` fields). Unknown options and
     out-of-range values raise :class:`hearnav.errors.ConfigError`, and so does any key of ``reset(options=...)``
-    (reset takes no options) and a ``min_start_distance`` that no navigable cell meets for some target spot of
-    a scene (at the first reset there, naming the largest distance that scene allows; the start is drawn from
-    the start region, else from every navigable cell). ``render_mode="rgb_array"`` draws the plan,
+    (reset takes no options), a ``standoff_m`` that leaves no navigable cell outside the rings of a scene's
+    spots, and a ``min_start_distance`` that no navigable cell outside those rings meets for some target spot
+    of a scene (at the first reset there, naming the largest distance that scene allows; the start is drawn
+    from the start region, else from every navigable cell, outside the episode's rings). ``render_mode="rgb_array"`` draws the plan,
     the target (red) and distractors (grey), the listener's pose and its path.
     """
 
@@ -256,6 +278,8 @@ class HearNavEnv(gym.Env):
         self._poses = world.poses  # the scene's tables, memory-mapped from the store
         self._maps = get_maps(plan.scene, self.config.acoustics, self.config.patch_size, self._fov)
         self._source_info = [p.info(world.scene) for p in plan.sources]
+        spots_xy = np.array([world.scene.spots[s].position[:2] for s in self._spot_ids])
+        self.moves = StandoffMoves(world.grid, ring_cells(world.grid, spots_xy, self.config.standoff_m))
         self.si_sdr_db = self.before_si_sdr_db = None
         self.quiet_windows = 0
         for _ in range(MAX_LEAD_IN + 1):  # a target that starts in a pause: listen on until it sounds
@@ -281,7 +305,7 @@ class HearNavEnv(gym.Env):
             raise InvalidActionError(f"action must be an integer in [0, 3] ({', '.join(ACTION_NAMES)}), "
                                      f"got {action!r}")
         before = (self.cell, self.heading)
-        self.cell, self.heading, collided = next_pose(self.world.grid, self.cell, self.heading, int(action))
+        self.cell, self.heading, collided = next_pose(self.moves, self.cell, self.heading, int(action))
         moved = (self.cell, self.heading) != before
         # the previous pose on the window about to be heard: the paired reward's second render (none when still)
         self.before_si_sdr_db = self.score_window(self.peek(*before), *before)[1] if moved else None
@@ -302,7 +326,6 @@ class HearNavEnv(gym.Env):
         scored_now = self._scored_at(self._session.time)
         window = self._session.listen(self.cell, self.heading)
         self.collided = collided
-        self._bearing = self.target_bearing(self.cell, self.heading)
         scored = scored_part(window, self._fade)
         self._spec = stft(scored.mixture, *self._stft)  # shared by the separator and the features
         self._spec.flags.writeable = False
@@ -395,7 +418,6 @@ class HearNavEnv(gym.Env):
     # -- observation -----------------------------------------------------------------------------------------
 
     def _obs(self) -> dict[str, np.ndarray]:
-        dist, bearing = self._bearing
         if self._estimate_spec is not None:  # the separator synthesised through the context (every built-in)
             binaural, estimate = self.features.observe(self._spec, *self._estimate_spec)
         else:
@@ -405,13 +427,28 @@ class HearNavEnv(gym.Env):
             "binaural": binaural,
             "estimate": estimate,
             "map": self._map(),
-            "target": np.array([min(dist, MAX_DISTANCE), math.sin(bearing), math.cos(bearing)], np.float32),
+            "target": self._target_cue(),
             "budget": np.array([1.0 - self.steps / self.config.budget], np.float32),
         }
 
+    def _target_cue(self) -> np.ndarray:
+        """(3,) float32 ``obs["target"]`` at the current pose for the configured ``target_cue``: distance (m, only
+        for "position"), sin and cos of the bearing ("bearing": of the target's earliest arriving path, the
+        direction the separator steers at, :meth:`context`; "position": of the spot); zeros for "none"."""
+        cue, spot = self.config.target_cue, self._spot_ids[0]
+        if cue == "none":
+            return np.zeros(3, np.float32)
+        if cue == "position":
+            dist, bearing = self.target_bearing(self.cell, self.heading)
+            return np.array([min(dist, MAX_DISTANCE), math.sin(bearing), math.cos(bearing)], np.float32)
+        bearing = float(self._poses.arrival[self.cell, self.heading, spot])
+        return np.array([0.0, math.sin(bearing), math.cos(bearing)], np.float32)
+
     def _map(self) -> np.ndarray:
-        """The egocentric map at the current pose."""
-        return self._maps.patch(self.cell, self.heading, self._spot_ids)
+        """The egocentric map at the current pose: the stand-off ring's cells are not navigable."""
+        out = self._maps.patch(self.cell, self.heading, self._spot_ids)
+        out[0][ring_patch(self.world.grid, self.moves.blocked, self.cell, self.heading, self.config.patch_size)] = 1.0
+        return out
 
     def _info(self) -> dict[str, Any]:
         grid = self.world.grid

@@ -9,6 +9,7 @@ import numpy as np
 
 from hearnav import sounds
 from hearnav.env.config import EnvConfig
+from hearnav.env.standoff import ring_cells
 from hearnav.errors import ConfigError, short_repr, unknown_name
 from hearnav.scene.grid import Grid
 from hearnav.scene.model import Scene
@@ -68,34 +69,44 @@ def check_categories(cfg: EnvConfig) -> None:
                               f"sound_categories: {', '.join(cfg.sound_categories)}); add it to sound_categories")
 
 
-def _start(grid: Grid, target_xy: np.ndarray, min_dist: float, rng: np.random.Generator) -> int:
-    """A start cell at least ``min_dist`` from the target: from the start region if one is far enough, else from
-    every navigable cell (:func:`check_start_distance` has made sure one is)."""
-    dist = np.linalg.norm(grid.centres - target_xy, axis=1)
+def _start(grid: Grid, target_xy: np.ndarray, min_dist: float, ring: np.ndarray, rng: np.random.Generator) -> int:
+    """A start cell at least ``min_dist`` from the target and outside the stand-off ring (``ring``: (n_cells,)
+    bool, :func:`hearnav.env.standoff.ring_cells`): from the start region if one is, else from every navigable
+    cell (:func:`check_start_distance` has made sure one is)."""
+    ok = (np.linalg.norm(grid.centres - target_xy, axis=1) >= min_dist) & ~ring
     for pool in (grid.start_cells, np.arange(grid.n_cells)):
-        far = pool[dist[pool] >= min_dist]
+        far = pool[ok[pool]]
         if far.size:
             return int(rng.choice(far))
-    raise ConfigError(f"no navigable cell is {min_dist:g} m from the target (expected one); lower "
-                      f"min_start_distance")
+    raise ConfigError(f"no navigable cell outside the stand-off rings is {min_dist:g} m from the target (expected "
+                      f"one); lower min_start_distance or standoff_m")
 
 
-def start_reach(grid: Grid, xy: np.ndarray) -> float:
-    """Distance in metres from ``xy`` to the farthest navigable cell centre: the largest start distance there."""
-    return float(np.linalg.norm(grid.centres - xy, axis=1).max()) if grid.n_cells else 0.0
+def start_reach(grid: Grid, xy: np.ndarray, ring: np.ndarray | None = None) -> float:
+    """Distance in metres from ``xy`` to the farthest navigable cell centre outside ``ring`` (default: none):
+    the largest start distance there (0 when no cell is left)."""
+    keep = np.ones(grid.n_cells, bool) if ring is None else ~ring
+    return float(np.linalg.norm(grid.centres[keep] - xy, axis=1).max()) if keep.any() else 0.0
 
 
 def check_start_distance(cfg: EnvConfig, scene_name: str, scene: Scene, grid: Grid, targets: list[int]) -> None:
-    """Raise ConfigError if ``min_start_distance`` cannot be met for some target spot of the scene, naming the
-    largest distance every target spot allows. Draws nothing, so valid configurations draw as before."""
+    """Raise ConfigError if ``min_start_distance`` cannot be met for some target spot of the scene by a cell
+    outside the stand-off rings of every spot (whichever sources an episode draws), naming the largest distance
+    every target spot allows. Draws nothing, so valid configurations draw as before."""
     wanted = cfg.min_start_distance
-    reach = {s: start_reach(grid, scene.spots[s].position[:2]) for s in targets}
+    ring = ring_cells(grid, np.array([s.position[:2] for s in scene.spots]), cfg.standoff_m)
+    if not (~ring).any():
+        raise ConfigError(f"option 'standoff_m': {cfg.standoff_m:g} m leaves no start cell in scene "
+                          f"{short_repr(scene_name)} (expected a navigable cell outside every spot's stand-off ring); "
+                          f"lower standoff_m or choose other scenes")
+    reach = {s: start_reach(grid, scene.spots[s].position[:2], ring) for s in targets}
     spot = min(reach, key=reach.get)
     if reach[spot] < wanted:
         largest = math.floor(reach[spot] * 100) / 100
         raise ConfigError(f"option 'min_start_distance': {wanted:g} m cannot be met in scene {short_repr(scene_name)} "
-                          f"(expected at most {largest:.2f} m: no navigable cell is farther from target spot "
-                          f"{short_repr(scene.spots[spot].name)}); lower min_start_distance or choose other scenes")
+                          f"(expected at most {largest:.2f} m: no navigable cell outside the stand-off rings is "
+                          f"farther from target spot {short_repr(scene.spots[spot].name)}); lower min_start_distance "
+                          f"or standoff_m, or choose other scenes")
 
 
 def draw_episode(rng: np.random.Generator, cfg: EnvConfig, scene_name: str, scene: Scene, grid: Grid) -> EpisodePlan:
@@ -126,7 +137,8 @@ def draw_episode(rng: np.random.Generator, cfg: EnvConfig, scene_name: str, scen
         offset = int(rng.integers(2**31 - 1))
         level = 0.0 if role == "target" else float(rng.uniform(*cfg.distractor_level_db))
         plans.append(SourcePlan(spot, category, cfg.sound_pool, voice, take, offset, level, role))
-    start = _start(grid, scene.spots[target].position[:2], cfg.min_start_distance, rng)
+    ring = ring_cells(grid, np.array([scene.spots[p.spot].position[:2] for p in plans]), cfg.standoff_m)
+    start = _start(grid, scene.spots[target].position[:2], cfg.min_start_distance, ring, rng)
     heading = int(rng.integers(grid.n_headings))
     return EpisodePlan(scene_name, tuple(plans), start, heading)
 

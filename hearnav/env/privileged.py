@@ -46,8 +46,9 @@ class PrivilegedView:
         return self._env.config.budget - self._env.steps
 
     def next_pose(self, cell: int, heading: int, action: int) -> tuple[int, int]:
-        """The pose an action leads to (a blocked forward move keeps the pose): :func:`hearnav.env.actions.next_pose`."""
-        return next_pose(self.grid, cell, heading, action)[:2]
+        """The pose an action leads to (a forward move blocked by a wall or the stand-off ring keeps the pose):
+        :func:`hearnav.env.actions.next_pose`."""
+        return next_pose(self._env.moves, cell, heading, action)[:2]
 
     def score(self, cell: int, heading: int) -> float:
         """The separator's score (dB) at a pose for the window the next step will hear, without moving.

@@ -5,11 +5,13 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+import hearnav
+
 from hearnav.bench.policy import is_privileged
 from hearnav.bench.registry import load_policy
 from tests.bench.conftest import ANECHOIC
 
-NAMES = ("still", "face-arrival", "random-walk", "approach", "greedy-oracle")
+NAMES = ("still", "face-arrival", "random-walk", "approach", "greedy-oracle", "follow-bearing")
 QUIET_DISTRACTOR = {"distractors": [1, 1], "distractor_level_db": [-30.0, -25.0]}
 
 
@@ -70,19 +72,61 @@ def test_random_walk_is_seeded_and_avoids_walls(make_env):
         assert not any(i["collided"] for i in run(free, "random-walk", seed=seed)["infos"])
 
 
-def test_approach_reaches_and_faces_the_target(make_env):
+def _target_distance(env, cell: int) -> float:
+    view = env.unwrapped.privileged
+    return float(np.hypot(*(np.asarray(view.grid.centres)[cell] - view.target_xy)))
+
+
+def reachable_cells(view, start) -> set[int]:
+    """Cells reachable from a pose with the environment's moves (breadth-first over poses)."""
+    seen, todo = {tuple(start)}, [tuple(start)]
+    while todo:
+        pose = todo.pop()
+        for action in range(3):
+            nxt = tuple(view.next_pose(*pose, action))
+            if nxt not in seen:
+                seen.add(nxt)
+                todo.append(nxt)
+    return {c for c, _ in seen}
+
+
+def test_approach_walks_to_the_best_pose_just_outside_the_ring(make_env):
     env = make_env(budget=40)
     for seed in range(2):
         out = run(env, "approach", seed=seed)
         view = env.unwrapped.privileged
-        centres = np.asarray(view.grid.centres)
-        dist = np.hypot(*(centres - view.target_xy).T)
-        start, end = out["path"][0][0], out["path"][-1][0]
-        # common practice (breadth-first search, Moore 1959): the shortest path ends at the nearest cell
-        assert end == int(np.argmin(dist)) and dist[end] <= dist[start]
-        # common practice: facing the target means a bearing within half a heading step of straight ahead
-        assert abs(bearing_deg(out["obs"])) <= 180.0 / view.grid.n_headings + 1e-6
+        grid = view.grid
+        end = out["path"][-1][0]
+        reachable = reachable_cells(view, out["path"][0])
+        assert not any(env.unwrapped.moves.blocked[c] for c in reachable)
+        nearest = min(_target_distance(env, c) for c in reachable)
+        # it ends on the ring's edge: outside the ring, within one cell of the nearest enterable distance
+        assert env.config.standoff_m <= _target_distance(env, end) <= nearest + grid.spacing + 1e-9
+        # common practice (breadth-first search, Moore 1959): a shortest path, so it arrives and then stays
+        assert out["actions"][-1] == 3
         assert not any(i["collided"] for i in out["infos"])
+
+
+def test_approach_chooses_the_edge_pose_the_separator_scores_best(make_env):
+    env = make_env(budget=40)
+    obs, info = env.reset(seed=1)
+    view = env.unwrapped.privileged
+    _, policy = load_policy("approach")
+    policy.reset(obs, {**info, "privileged": view})
+    policy.act(obs, {**info, "privileged": view})  # chooses its goal on the window the next step will hear
+    depth, todo = {tuple(view.pose): 0}, [tuple(view.pose)]
+    for pose in todo:  # breadth-first over poses (Moore 1959)
+        for action in range(3):
+            nxt = tuple(view.next_pose(*pose, action))
+            if nxt not in depth:
+                depth[nxt] = depth[pose] + 1
+                todo.append(nxt)
+    dist = {c: _target_distance(env, c) for c, _ in depth}
+    edge = [p for p in depth if dist[p[0]] <= min(dist.values()) + view.grid.spacing + 1e-9 and depth[p] <= 40]
+    assert policy.goal in edge
+    # chosen before its first step, on the next eval_windows windows (nothing has advanced since)
+    means = {p: np.nanmean(view.scores_ahead([p])[:, 0]) for p in edge}
+    assert means[policy.goal] == pytest.approx(max(means.values()), abs=1e-9)
 
 
 def test_greedy_oracle_gains_over_standing_still(make_env):
@@ -104,3 +148,39 @@ def test_face_arrival_faces_the_source_in_free_field(make_env):
     # Woodworth ITD and spherical-head interaural cues (Woodworth & Schlosberg 1954; Brown & Duda 1998),
     # front-back resolved by one turn: the final heading is within 45 degrees of the target in most episodes
     assert sum(e <= 45.0 for e in errors) >= 4, errors
+
+
+@pytest.mark.parametrize("cue", ["bearing", "position"])  # in free field both give the spot's bearing
+def test_follow_bearing_holds_at_the_ring_edge_facing_the_target_in_an_open_scene(make_env, cue):
+    env = make_env(scenes=[ANECHOIC], budget=30, target_cue=cue, **QUIET_DISTRACTOR)
+    step = 360.0 / 4
+    for seed in range(4):
+        out = run(env, "follow-bearing", seed=seed)
+        end = out["path"][-1][0]
+        spacing = env.unwrapped.world.grid.spacing
+        # at the edge: outside the 1 m ring, within one diagonal cell of it, and holding still
+        assert 1.0 <= _target_distance(env, end) <= 1.0 + np.sqrt(2) * spacing + 1e-9, seed
+        assert out["actions"][-3:] == [3, 3, 3]
+        # facing the target: the observed bearing within half a heading step of straight ahead
+        assert abs(bearing_deg(out["obs"])) <= step / 2 + 1e-6
+        # the map shows every wall and ring in the open scene, so it never collides
+        assert not any(i["collided"] for i in out["infos"])
+
+
+def test_follow_bearing_needs_a_bearing(make_env):
+    env = make_env(target_cue="none")
+    _, policy = load_policy("follow-bearing")
+    obs, info = env.reset(seed=0)
+    with pytest.raises(hearnav.PolicyError) as caught:
+        policy.reset(obs, info)
+    assert str(caught.value) == ("follow-bearing needs a target bearing in observation['target'] (expected "
+                                 "target_cue 'bearing' or 'position', got all zeros: target_cue 'none'); make the "
+                                 "environment with target_cue='bearing'")
+
+
+@pytest.mark.parametrize("name", ["still", "face-arrival", "random-walk"])
+def test_baselines_without_a_cue_act_alike_under_every_cue(make_env, name):
+    # still, face-arrival (binaural features only) and random-walk (the map only) never read the target cue:
+    # they keep their meaning, and their actions, whatever the environment gives
+    actions = [run(make_env(target_cue=cue), name, seed=2)["actions"] for cue in ("bearing", "none", "position")]
+    assert actions[0] == actions[1] == actions[2]

@@ -213,7 +213,7 @@ def test_comparable_matches_written_row(tmp_path):
 
 # A row as hearnav bench wrote it before rows were typed (field names and JSON types of that file format).
 WRITTEN_ROW = {"policy": "random-walk", "privileged": False, "episode_index": 2, "episode_seed": 2900114516,
-               "oracle_gain_db": 3.25, "status": "ok", "error": None, "scene": "maple-flat",
+               "oracle_gain_db": 3.25, "status": "ok", "error": None, "scene": "maple-flat", "target_cue": "bearing",
                "start_si_sdr_db": -12.5, "start_input_si_sdr_db": -14.0, "start_full_si_sdr_db": -8.0,
                "start_input_full_si_sdr_db": -9.0, "final_si_sdr_db": -10.0, "final_full_si_sdr_db": -6.0,
                "best_si_sdr_db": -9.5, "gain_db": 2.5, "mean_gain_db": 1.25, "eval_windows_scored": 8,

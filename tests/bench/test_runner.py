@@ -55,6 +55,7 @@ def test_rows_summary_and_resume(suite_file, tmp_path, capsys):
                   "best_si_sdr_db", "gain_db", "mean_gain_db", "oracle_gain_db", "normalised_gain", "path_length_m", "steps",
                   "collisions", "status", "error"):
         assert all(field in r for r in rows), field
+    assert all(r["target_cue"] == "bearing" for r in rows)  # rows record the cue (the default here)
     summary = json.loads((out / "summary.json").read_text())
     assert set(summary["policies"]) == {"still", "random-walk"}
     for entry in summary["policies"].values():

@@ -41,6 +41,9 @@ def test_digest_changes_with_the_episodes_and_not_otherwise():
     assert suite(seed=43).digest() != suite().digest()
     assert suite(episodes=6).digest() != suite().digest()
     assert suite(env={"budget": 7}).digest() != suite().digest()
+    # results with another target cue or stand-off ring are never compared
+    assert len({suite(env={"target_cue": cue}).digest() for cue in ("bearing", "none", "position")}) == 3
+    assert suite(env={"standoff_m": 0.5}).digest() != suite().digest()
 
 
 def test_bundled_suites_load():

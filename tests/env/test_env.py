@@ -123,12 +123,13 @@ def test_moves_turns_and_collisions(make_env):
     env.step(2)
     env.step(2)
     assert env.heading == (heading - 1) % 4
-    # walk forward until blocked: the pose then stays and info says collided
+    # walk forward until blocked (a wall or a stand-off ring): the pose then stays and info says collided
     for _ in range(20):
         before = env.cell
         *_, info = env.step(0)
         if info["collided"]:
-            assert env.cell == before and grid.forward(before, env.heading) == -1
+            ahead = grid.forward(before, env.heading)
+            assert env.cell == before and (ahead == -1 or env.moves.blocked[ahead])
             break
     else:
         pytest.fail("never reached a wall")
@@ -146,11 +147,14 @@ def test_info_contents(make_env):
     assert set(env.step(3)[-1]) == keys
 
 
-def test_start_is_far_enough_from_the_target(make_env):
-    env = make_env(min_start_distance=2.0)
+def test_start_is_far_enough_from_the_target_and_outside_every_ring(make_env):
+    env = make_env(min_start_distance=2.0, target_cue="position", standoff_m=1.5)
     for seed in range(10):
         obs, info = env.reset(seed=seed)
         assert obs["target"][0] >= 2.0 - 1e-6
+        spots = {s.name: s.position[:2] for s in env.world.scene.spots}
+        xy = np.array([info["pose"]["x"], info["pose"]["y"]])
+        assert min(np.hypot(*(spots[s["spot"]] - xy)) for s in info["sources"]) >= 1.5
 
 
 @pytest.mark.parametrize("action", [0, 1, 3])
@@ -219,7 +223,7 @@ def test_invalid_action(make_env, action):
 
 def test_map_shows_every_blocked_neighbour(make_env):
     # The egocentric map must show a wall ahead exactly when a forward move collides (row half-1 is ahead),
-    # thin partitions between two navigable cells included.
+    # thin partitions between two navigable cells and the stand-off ring included.
     env = make_env()
     obs, _ = env.reset(seed=0)
     half = env.config.patch_size // 2
@@ -228,7 +232,7 @@ def test_map_shows_every_blocked_neighbour(make_env):
         for heading in range(grid.n_headings):
             env.cell, env.heading = cell, heading
             m = env._obs()["map"][0]
-            assert (m[half - 1, half] == 1.0) == (grid.forward(cell, heading) < 0), (cell, heading)
+            assert (m[half - 1, half] == 1.0) == (env.moves.forward(cell, heading) < 0), (cell, heading)
 
 
 def test_estimate_levels_from_the_output_spectrum_match_the_estimates_own(make_env):

@@ -27,7 +27,7 @@ def test_view_moves_with_the_transition_function(make_env):
     for cell in range(0, grid.n_cells, 7):
         for heading in range(grid.n_headings):
             for action in Action:
-                assert view.next_pose(cell, heading, action) == next_pose(grid, cell, heading, action)[:2]
+                assert view.next_pose(cell, heading, action) == next_pose(env.moves, cell, heading, action)[:2]
 
 
 def test_last_window_is_what_was_scored(make_env):

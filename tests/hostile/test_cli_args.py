@@ -264,7 +264,7 @@ def test_readme_example_runs_as_written(tmp_path):
 # -- reset(options=...) and min_start_distance, which were ignored silently -----------------------------------------
 
 FIELDS = ("scenes, procedural_pool, sound_categories, target_category, distractors, sound_pool, "
-          "distractor_level_db, min_start_distance, step_s, budget, separator, reward_clip, n_bands, n_segments, "
+          "distractor_level_db, target_cue, standoff_m, min_start_distance, step_s, budget, eval_windows, separator, reward_clip, n_bands, n_segments, "
           "patch_size, fov_deg, acoustics")
 RESET = "reset(options=...) got the unknown key {} (expected no keys: reset takes no options); "
 
@@ -326,8 +326,9 @@ def test_an_impossible_min_start_distance_names_the_largest_possible(two_spot_ro
     with pytest.raises(ConfigError) as caught:
         _draw(two_spot_room, distance)
     assert str(caught.value) == (f"option 'min_start_distance': {distance:g} m cannot be met in scene 'two-spots' "
-                                 f"(expected at most 3.25 m: no navigable cell is farther from target spot "
-                                 f"'middle'); lower min_start_distance or choose other scenes")
+                                 f"(expected at most 3.25 m: no navigable cell outside the stand-off rings is "
+                                 f"farther from target spot 'middle'); lower min_start_distance or standoff_m, or "
+                                 f"choose other scenes")
 
 
 def test_the_largest_named_distance_is_met_every_time(two_spot_room):
