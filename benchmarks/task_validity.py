@@ -63,13 +63,14 @@ def main() -> None:
     env = HearNavEnv(**options)
     seeds = suite.episode_seeds()[:args.episodes]
     policies = {name: load_policy(name)[1] for name in POLICIES}
-    bounds, within, distance, shielded = [], [], [], []
+    bounds, within, distance, shielded, best_steps = [], [], [], [], []
     gains = {name: [] for name in POLICIES}
     rewards = {name: [] for name in POLICIES}
     for index, seed in enumerate(seeds):
         bound = episode_bound(env, seed, any_steps=True)
         bounds.append(bound.gain_db)
         within.append(bound.best_steps <= env.config.budget)
+        best_steps.append(bound.best_steps)
         target = env.world.scene.spots[env.plan.sources[0].spot].position[:2]
         distance.append(float(np.hypot(*(np.asarray(env.world.grid.centres[bound.pose[0]]) - target))))
         shielded.append(shields(env, bound.pose[0], ring_nearest_cell(env)))
@@ -89,6 +90,8 @@ def main() -> None:
     print(f"| per-step reward SD, random-walk (dB) | {np.std(rewards['random-walk']):.2f} |")
     print(f"| largest absolute reward, still (dB) | {np.max(np.abs(rewards['still'])):.2f} |")
     print(f"| episodes whose best pose is within the budget | {np.mean(within):.1%} |")
+    print(f"| steps to the best pose with no step limit: median, 95th percentile | {np.median(best_steps):.0f}, "
+          f"{np.percentile(best_steps, 95):.0f} |")
     print(f"| median distance of the bound's pose from the target (m) | {np.median(distance):.2f} |")
     print(f"| bound poses shielded from a distractor the ring's nearest cell sees | {np.mean(shielded):.1%} |")
 
