@@ -9,6 +9,7 @@ import pytest
 from hearnav.bench.oracle import OracleCache, episode_bound, paired_gains, reachable
 from hearnav.bench.runner import end_gain
 from hearnav.env import Action, next_pose
+from tests.bench.conftest import PAIR
 from tests.env.test_actions import Corridor
 
 
@@ -70,3 +71,25 @@ def test_cache_round_trips_and_rewrites_atomically(tmp_path):
     assert (again.get(3), again.get(4), again.get(5)) == (1.25, -2.5, None)
     assert not list(tmp_path.glob("*.tmp"))
     assert np.isfinite(again.get(3))
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_the_bound_stands_where_the_interferer_is_farthest_for_its_distance(make_env, seed):
+    # Free field, one noise target and one equally loud noise interferer 3 m apart, the identity separator: each
+    # ear hears the target at 1/r_t and the interferer at 1/r_i (the inverse-square law; the far-field
+    # spherical head shades both alike when they lie in one direction), so the score follows 20 log10(r_i / r_t)
+    # and the best pose outside the 1 m stand-off rings is the cell with the largest r_i / r_t: on the line
+    # through both sources, just beyond the target's ring, with the target between the listener and the
+    # interferer (analytic, common practice of free-field geometry). The bound must find that cell.
+    env = make_env(scenes=[PAIR], budget=40, eval_windows=2, distractors=[1, 1], distractor_level_db=[0.0, 0.0],
+                   target_category="noise", sound_categories=["noise"], standoff_m=1.0, min_start_distance=0.0)
+    bound = episode_bound(env, seed)
+    centres = np.asarray(env.world.grid.centres, float)
+    target, other = (env.world.scene.spots[s.spot].position[:2] for s in env.plan.sources)
+    r_t, r_i = (np.hypot(*(centres - p).T) for p in (target, other))
+    allowed = (r_t >= 1.0) & (r_i >= 1.0)
+    best = int(np.argmax(np.where(allowed, r_i / r_t, -np.inf)))
+    assert np.hypot(*(centres[bound.pose[0]] - centres[best])) <= env.world.grid.spacing + 1e-9
+    # the analytic cell lies beyond the target, away from the interferer
+    assert np.dot(centres[best] - target, target - other) > 0
+    assert bound.gain_db >= 0.0
