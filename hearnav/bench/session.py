@@ -140,7 +140,7 @@ def run(suite: Suite | str | os.PathLike, policies: Sequence[str], out: str | os
     files.make_folder(out, results.OUTPUT)  # a read-only or full --out is one line naming it
     with results.lock_folder(out):
         results.check_manifest(out, {"suite": suite.name, "suite_hash": suite.digest(), "code_version": code_version(),
-                                     "run_key": key, "key_parts": parts})
+                                     "target_cue": suite.env_config().target_cue, "run_key": key, "key_parts": parts})
         rows_path = out / results.EPISODES_FILE
         results.repair(rows_path)
         done = results.done_keys(results.read_rows(rows_path))

@@ -58,6 +58,9 @@ def test_rows_summary_and_resume(suite_file, tmp_path, capsys):
     assert all(r["target_cue"] == "bearing" for r in rows)  # rows record the cue (the default here)
     summary = json.loads((out / "summary.json").read_text())
     assert set(summary["policies"]) == {"still", "random-walk"}
+    # the manifest and every row name the target cue, so results of different cues are told apart
+    assert json.loads((out / "run.json").read_text())["target_cue"] == "bearing"
+    assert {r["target_cue"] for r in rows} == {"bearing"}
     for entry in summary["policies"].values():
         assert entry["episodes"] == 3 and entry["failures"] == 0
         for metric in ("gain_db", "final_si_sdr_db"):
