@@ -9,7 +9,10 @@ edge) and ``still``, and prints:
 - the share of episodes whose best pose (no step limit) lies within the budget;
 - the median distance of the bound's pose from the target, and the share of bound poses that are shielded from
   at least one distractor (no line of sight to its spot) that the cell nearest the target outside the stand-off
-  ring is not shielded from.
+  ring is not shielded from;
+- the share of the bound reached by standing at that nearest cell facing the target (geometry alone, no score),
+  which says how much the choice of position around the ring carries beyond getting close; and the median
+  distance between the target's spot and its nearest distractor's.
 
 Usage: python benchmarks/task_validity.py [--suite test] [--episodes 60] [--budget N]
 """
@@ -44,6 +47,23 @@ def shields(env, cell: int, nearest: int) -> bool:
     return any(not los[cell, d] and los[nearest, d] for d in distractors)
 
 
+def facing(env, cell: int, target: np.ndarray) -> int:
+    """The heading at ``cell`` that points most nearly at ``target``."""
+    grid = env.world.grid
+    dx, dy = np.asarray(target, float) - np.asarray(grid.centres[cell], float)
+    angles = np.array([grid.heading_angle(h) for h in range(grid.n_headings)])
+    return int(np.argmin(np.abs(np.angle(np.exp(1j * (np.arctan2(dy, dx) - angles))))))
+
+
+def pose_gain(env, pose: tuple[int, int]) -> float:
+    """The paired gain of a pose over the start on the episode's evaluation windows (the env just reset)."""
+    from hearnav.bench.oracle import paired_gains
+
+    start = (env.cell, env.heading)
+    scores = env.scores_ahead([pose, start], env.config.eval_windows, offset=env.config.budget)
+    return float(paired_gains(scores, 1)[0][0])
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--suite", default="test")
@@ -63,7 +83,7 @@ def main() -> None:
     env = HearNavEnv(**options)
     seeds = suite.episode_seeds()[:args.episodes]
     policies = {name: load_policy(name)[1] for name in POLICIES}
-    bounds, within, distance, shielded, best_steps = [], [], [], [], []
+    bounds, within, distance, shielded, best_steps, nearest_gain, spacing = [], [], [], [], [], [], []
     gains = {name: [] for name in POLICIES}
     rewards = {name: [] for name in POLICIES}
     for index, seed in enumerate(seeds):
@@ -73,7 +93,11 @@ def main() -> None:
         best_steps.append(bound.best_steps)
         target = env.world.scene.spots[env.plan.sources[0].spot].position[:2]
         distance.append(float(np.hypot(*(np.asarray(env.world.grid.centres[bound.pose[0]]) - target))))
-        shielded.append(shields(env, bound.pose[0], ring_nearest_cell(env)))
+        nearest = ring_nearest_cell(env)
+        shielded.append(shields(env, bound.pose[0], nearest))
+        nearest_gain.append(pose_gain(env, (nearest, facing(env, nearest, target))))
+        spots = [np.asarray(env.world.scene.spots[s.spot].position[:2]) for s in env.plan.sources]
+        spacing.append(min(float(np.hypot(*(spots[0] - d))) for d in spots[1:]))
         for name, policy in policies.items():
             row = run_episode(env, name, policy, Task(name, index, seed, bound.gain_db), rewards=rewards[name])
             gains[name].append(row.gain_db)
@@ -93,6 +117,9 @@ def main() -> None:
     print(f"| steps to the best pose with no step limit: median, 95th percentile | {np.median(best_steps):.0f}, "
           f"{np.percentile(best_steps, 95):.0f} |")
     print(f"| median distance of the bound's pose from the target (m) | {np.median(distance):.2f} |")
+    print(f"| share of the bound's gain, nearest cell outside the ring facing the target | "
+          f"{np.sum(nearest_gain) / total:.1%} |")
+    print(f"| median distance from the target's spot to the nearest distractor's (m) | {np.median(spacing):.2f} |")
     print(f"| bound poses shielded from a distractor the ring's nearest cell sees | {np.mean(shielded):.1%} |")
 
 

@@ -44,7 +44,7 @@ class EnvConfig(BaseModel):
                                     description="metres around each source's spot the listener may not enter")
     min_start_distance: StrictFloat = Field(default=2.0, ge=0.0, le=50.0, description="metres from the target spot")
     step_s: StrictFloat = Field(default=0.5, ge=0.05, le=4.0, description="seconds of sound per step")
-    budget: StrictInt = Field(default=20, ge=1, le=1000, description="steps before truncation")
+    budget: StrictInt = Field(default=32, ge=1, le=1000, description="steps before truncation")
     eval_windows: StrictInt = Field(default=8, ge=1, le=64,
                                     description="windows after the episode on which its end and start poses are scored")
     separator: StrictStr = Field(default="identity", description="registered separator name")
