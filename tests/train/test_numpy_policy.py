@@ -1,0 +1,79 @@
+"""The numpy policy: plain .npz weights only, the shipped agent, and no torch in the base install's imports."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+
+from hearnav.bench.registry import load_policy
+from hearnav.errors import PolicyError
+from hearnav.train.agents import FOLDER
+from hearnav.train.numpy_policy import NumpyNetwork, NumpyPolicy
+
+
+def _tiny_network(tmp_path, **changes):
+    """A hand-made network on one key: logits = W2 tanh(W1 x + b1) + b2."""
+    arrays = {"format": np.array(1), "keys": np.array(["x"]), "shape/x": np.array([2]), "activation": np.array("tanh"),
+              "hidden/0/weight": np.array([[1.0, 0.0], [0.0, -1.0]], np.float32),
+              "hidden/0/bias": np.zeros(2, np.float32),
+              "action/weight": np.array([[1, 0], [0, 1], [-1, 0], [0, -1]], np.float32),
+              "action/bias": np.zeros(4, np.float32)}
+    arrays.update(changes)
+    path = tmp_path / "net.npz"
+    np.savez(path, **arrays)
+    return path
+
+
+def test_forward_pass_by_hand(tmp_path):
+    net = NumpyNetwork.load(_tiny_network(tmp_path))
+    x = {"x": np.array([0.5, 2.0], np.float32)}
+    expected = np.array([np.tanh(0.5), np.tanh(-2.0), -np.tanh(0.5), np.tanh(2.0)], np.float32)
+    np.testing.assert_allclose(net.logits(x), expected, rtol=1e-6)
+    assert net.act(x) == 3
+
+
+def test_pickled_arrays_are_refused(tmp_path):
+    path = _tiny_network(tmp_path, keys=np.array([object()], dtype=object))
+    with pytest.raises(PolicyError, match=r"cannot be read as plain numpy arrays \(ValueError: .*allow_pickle"):
+        NumpyNetwork.load(path)
+
+
+def test_missing_array_and_wrong_format_are_one_line(tmp_path):
+    path = _tiny_network(tmp_path)
+    data = dict(np.load(path))
+    del data["action/bias"]
+    np.savez(path, **data)
+    with pytest.raises(PolicyError, match=r"lack the array 'action/bias'"):
+        NumpyNetwork.load(path)
+    with pytest.raises(PolicyError, match=r"have format 2 \(expected 1\)"):
+        NumpyNetwork.load(_tiny_network(tmp_path, format=np.array(2)))
+
+
+def test_observation_of_another_environment_is_refused(tmp_path):
+    policy = NumpyPolicy(_tiny_network(tmp_path))
+    with pytest.raises(PolicyError, match=r"the observation has keys and shapes \{'x': \(3,\)\}, but the network "
+                                          r"was trained on \{'x': \(2,\)\}"):
+        policy.reset({"x": np.zeros(3, np.float32)}, {})
+
+
+def test_shipped_agent_plays_the_environment(make_env):
+    name, policy = load_policy("ppo-tiny")
+    assert name == "ppo-tiny" and policy.privileged is False
+    assert (FOLDER / "ppo-tiny.npz").is_file() and (FOLDER / "ppo-tiny.json").is_file()
+    env = make_env()
+    obs, info = env.reset(seed=3)
+    policy.reset(obs, info)
+    actions = [policy.act(obs, info) for _ in range(3)]
+    assert all(a in range(4) for a in actions) and len(set(actions)) == 1  # deterministic on one observation
+
+
+def test_base_imports_never_load_torch_or_stable_baselines3():
+    code = ("import sys, hearnav, hearnav.cli.main, hearnav.bench, hearnav.bench.runner, hearnav.env\n"
+            "from hearnav.bench.registry import load_policy, policy_names\n"
+            "from hearnav.cli.main import build_parser\npolicy_names(); load_policy('ppo-tiny'); build_parser()\n"
+            "print(sorted({m.split('.')[0] for m in sys.modules} & {'torch', 'stable_baselines3'}))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.strip() == "[]"
