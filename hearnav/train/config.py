@@ -38,20 +38,25 @@ class PPOOptions(BaseModel):
 
 
 class NetOptions(BaseModel):
-    """The policy network: each observation key flattened and concatenated, then an MLP for the policy and one
-    for the value."""
+    """The policy network: each observation key through the extractor ("flat": flattened; "cnn": 3 x 3
+    convolutions with ``filters`` on every (C, H, W) key, flattening the rest), concatenated, then an MLP for the
+    policy and one for the value (the extractor is shared)."""
 
     model_config = _STRICT
+
+    extractor: Literal["flat", "cnn"] = "flat"
+    filters: list[StrictInt] = Field(default_factory=lambda: [8, 8], min_length=1, max_length=4,
+                                     description="channels of each 3 x 3 convolution of the cnn extractor")
 
     hidden: list[StrictInt] = Field(default_factory=lambda: [64, 64], max_length=8,
                                     description="units of each hidden layer (shared sizes, separate networks)")
     activation: Literal["tanh", "relu"] = "tanh"
 
-    @field_validator("hidden")
+    @field_validator("hidden", "filters")
     @classmethod
     def _sizes(cls, value: list[int]) -> list[int]:
         if any(not 1 <= n <= 4096 for n in value):
-            raise ValueError("hidden layer sizes must be within [1, 4096]")
+            raise ValueError("layer sizes must be within [1, 4096]")
         return value
 
 

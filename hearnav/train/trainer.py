@@ -55,13 +55,17 @@ def make_vec_env(config: TrainConfig) -> Any:
 
 
 def new_model(config: TrainConfig, venv: Any, seed: int) -> Any:
-    """A fresh PPO with MultiInputPolicy (every key flattened, then separate policy and value MLPs) on cpu."""
+    """A fresh PPO with MultiInputPolicy (the config's extractor, then separate policy and value MLPs) on cpu."""
     from stable_baselines3 import PPO
     from torch import nn
 
     hidden = list(config.net.hidden)
-    kwargs = dict(net_arch=dict(pi=hidden, vf=hidden),
-                  activation_fn={"tanh": nn.Tanh, "relu": nn.ReLU}[config.net.activation])
+    kwargs: dict[str, Any] = dict(net_arch=dict(pi=hidden, vf=hidden),
+                                  activation_fn={"tanh": nn.Tanh, "relu": nn.ReLU}[config.net.activation])
+    if config.net.extractor == "cnn":
+        from hearnav.train.extractor import ConvExtractor
+
+        kwargs.update(features_extractor_class=ConvExtractor, features_extractor_kwargs={"filters": config.net.filters})
     return PPO("MultiInputPolicy", venv, policy_kwargs=kwargs, device="cpu", seed=seed, verbose=0,
                **config.ppo.model_dump())
 
@@ -172,9 +176,11 @@ class Trainer:
             before = ckpt.get("config", {})
             now = self.config.model_dump(mode="json")
             changed = sorted(k for k in set(before) | set(now) if before.get(k) != now.get(k) and k not in RESUMABLE)
-            raise ConfigError(f"--resume: the options {', '.join(changed) or '(unknown)'} differ from the run in "
-                              f"{shown_path(f.root)} (expected the same config; only {', '.join(RESUMABLE)} may "
-                              f"change); use the run's config or another --out")
+            names = ", ".join(changed) or "(unknown)"
+            verb = "options {} differ" if len(changed) > 1 else "option {} differs"
+            raise ConfigError(f"--resume: the {verb.format(names)} from the run in {shown_path(f.root)} (expected the "
+                              f"same config; only {', '.join(RESUMABLE)} may change); use the run's config or "
+                              f"another --out")
         return ckpt
 
     def _save_checkpoint(self, steps: int) -> None:

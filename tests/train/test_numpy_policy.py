@@ -11,7 +11,7 @@ import pytest
 from hearnav.bench.registry import load_policy
 from hearnav.errors import PolicyError
 from hearnav.train.agents import FOLDER
-from hearnav.train.numpy_policy import NumpyNetwork, NumpyPolicy
+from hearnav.train.numpy_policy import NumpyNetwork, NumpyPolicy, conv3x3
 
 
 def _tiny_network(tmp_path, **changes):
@@ -33,6 +33,17 @@ def test_forward_pass_by_hand(tmp_path):
     expected = np.array([np.tanh(0.5), np.tanh(-2.0), -np.tanh(0.5), np.tanh(2.0)], np.float32)
     np.testing.assert_allclose(net.logits(x), expected, rtol=1e-6)
     assert net.act(x) == 3
+
+
+def test_conv3x3_matches_scipy_correlate2d():
+    # Reference library: scipy.signal.correlate2d with zero fill ("same" size) is the cross-correlation that
+    # torch.nn.Conv2d(kernel_size=3, padding=1) computes, summed over input channels.
+    from scipy.signal import correlate2d
+
+    rng = np.random.default_rng(1)
+    x, w, b = rng.normal(size=(3, 5, 7)), rng.normal(size=(2, 3, 3, 3)), rng.normal(size=2)
+    expected = np.stack([sum(correlate2d(x[c], w[o, c], mode="same") for c in range(3)) + b[o] for o in range(2)])
+    np.testing.assert_allclose(conv3x3(x, w, b), np.maximum(expected, 0.0), rtol=1e-12, atol=1e-12)
 
 
 def test_pickled_arrays_are_refused(tmp_path):

@@ -80,7 +80,7 @@ def test_resume_continues_from_the_checkpoint_step_count(suite_file, tmp_path):
                                f"--resume to continue it, or give another --out")
     with pytest.raises(ConfigError) as info:
         train(make_train_config({**data, "seed": 8}), out, resume=True, progress=False)
-    assert str(info.value) == (f"--resume: the options seed differ from the run in '{out}' (expected the same "
+    assert str(info.value) == (f"--resume: the option seed differs from the run in '{out}' (expected the same "
                                f"config; only total_steps may change); use the run's config or another --out")
     info = train(make_train_config({**data, "total_steps": 256}), out, resume=True, progress=False)
     assert [(s["start_step"], s["end_step"], s["resume"]) for s in info["sessions"]] == [(0, 128, False),
@@ -120,12 +120,14 @@ def test_ctrl_c_saves_a_checkpoint_and_resume_goes_on_from_it(suite_file, tmp_pa
 
 
 @pytest.mark.slow
-def test_numpy_forward_pass_matches_the_sb3_policy_on_200_observations(suite_file, tmp_path, make_env):
+@pytest.mark.parametrize("net", [{"hidden": [16, 16]}, {"extractor": "cnn", "filters": [4, 4], "hidden": [16],
+                                                         "activation": "relu"}])
+def test_numpy_forward_pass_matches_the_sb3_policy_on_200_observations(suite_file, tmp_path, make_env, net):
     from hearnav.train.numpy_policy import NumpyNetwork
     from hearnav.train.sb3 import load_model
 
     out = tmp_path / "run"
-    train(make_train_config(smoke_config(str(suite_file), total_steps=128)), out, progress=False)
+    train(make_train_config(smoke_config(str(suite_file), total_steps=128, net=net)), out, progress=False)
     model, network = load_model(out / "best.zip"), NumpyNetwork.load(out / "best.npz")
     env, observations, rng = make_env(), [], np.random.default_rng(0)
     while len(observations) < 200:  # recorded from rollouts of the model's own (sampled) actions
