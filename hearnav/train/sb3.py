@@ -64,14 +64,22 @@ def load_model(path: str | os.PathLike, algo: str = "PPO") -> Any:
 
 
 #: Reference prefixes of saved SB3 models and their algorithms.
-PREFIXES = {"ppo": "PPO", "a2c": "A2C", "dqn": "DQN"}
+ALGORITHMS = {"ppo": "PPO", "a2c": "A2C", "dqn": "DQN"}
+#: Every prefix of a model file reference: SB3 models, and ``npz:`` for an exported network.
+PREFIXES = (*ALGORITHMS, "npz")
 
 
 def model_policy(reference: str) -> Any:
-    """The deterministic, non-privileged policy of a reference ``ppo:PATH`` (also ``a2c:``, ``dqn:``)."""
-    from hearnav.bench.policy import SB3Policy
-
+    """The deterministic, non-privileged policy of a reference ``ppo:PATH`` (also ``a2c:``, ``dqn:``), or
+    ``npz:PATH`` for a network exported to .npz (run in numpy, no torch)."""
     prefix, _, path = reference.partition(":")
     if not path:
-        raise PolicyError(f"policy {reference!r} names no file (expected {prefix}:path/to/model.zip)")
-    return SB3Policy(load_model(path, PREFIXES[prefix]), deterministic=True)
+        example = "agent.npz" if prefix == "npz" else "model.zip"
+        raise PolicyError(f"policy {reference!r} names no file (expected {prefix}:path/to/{example})")
+    if prefix == "npz":
+        from hearnav.train.numpy_policy import NumpyPolicy
+
+        return NumpyPolicy(path)
+    from hearnav.bench.policy import SB3Policy
+
+    return SB3Policy(load_model(path, ALGORITHMS[prefix]), deterministic=True)

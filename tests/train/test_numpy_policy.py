@@ -88,3 +88,16 @@ def test_base_imports_never_load_torch_or_stable_baselines3():
             "print(sorted({m.split('.')[0] for m in sys.modules} & {'torch', 'stable_baselines3'}))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]"
+
+
+def test_model_file_references(tmp_path):
+    path = _tiny_network(tmp_path)
+    name, policy = load_policy(f"npz:{path}")
+    assert name == f"npz:{path}" and isinstance(policy, NumpyPolicy) and policy.privileged is False
+    with pytest.raises(PolicyError) as info:
+        load_policy("npz:")
+    assert str(info.value) == "policy 'npz:' names no file (expected npz:path/to/agent.npz)"
+    with pytest.raises(PolicyError) as info:
+        load_policy(f"ppo:{tmp_path / 'missing.zip'}")
+    assert str(info.value) == (f"SB3 model '{tmp_path / 'missing.zip'}' not found (expected a .zip saved by "
+                               f"training, e.g. DIR/best.zip)")

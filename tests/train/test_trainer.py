@@ -48,7 +48,7 @@ def test_smoke_run_trains_saves_loads_and_benchmarks(suite_file, tmp_path):
     evals = [json.loads(line) for line in (out / "eval.jsonl").read_text().splitlines()]
     assert [e["step"] for e in evals] == [64, 128, 192]
     assert info["best"]["mean_gain_db"] == max(e["mean_gain_db"] for e in evals)
-    for k, policy in enumerate((f"ppo:{out / 'best.zip'}", "ppo-tiny")):
+    for k, policy in enumerate((f"ppo:{out / 'best.zip'}", f"npz:{out / 'best.npz'}", "ppo-tiny")):
         bench = tmp_path / f"bench-{k}"
         assert main(["bench", "--policy", policy, "--suite", str(suite_file), "--out", str(bench)]) == 0
         rows = [json.loads(line) for line in (bench / "episodes.jsonl").read_text().splitlines()]
