@@ -18,7 +18,7 @@ from typing import Any
 
 import numpy as np
 
-from hearnav.errors import ConfigError, HearnavError, shown_path
+from hearnav.errors import ConfigError, HearnavError, short_repr, shown_path
 from hearnav.train.config import TrainConfig
 from hearnav.train.runinfo import RESUMABLE, command_line, config_digest, read_json, versions, write_json
 
@@ -81,13 +81,22 @@ class Evaluator:
         self.seeds = seeds[: config.eval.episodes] if config.eval.episodes else seeds
         self._env = None
 
+    def check_spaces(self, space: Any) -> None:
+        """ConfigError unless the suite's observations have the training observation space ``space``."""
+        from hearnav.env.core import HearNavEnv
+
+        self._env = HearNavEnv(**self.suite.env_config().model_dump())
+        found = {k: v.shape for k, v in self._env.observation_space.spaces.items()}
+        expected = {k: v.shape for k, v in space.spaces.items()}
+        if found != expected:
+            raise ConfigError(f"eval suite {self.suite.name!r} gives observations {short_repr(found, 160)}, but "
+                              f"training gives {short_repr(expected, 160)} (expected the same shapes); give the "
+                              f"training env the suite's feature options (n_bands, n_segments, patch_size)")
+
     def __call__(self, model: Any) -> dict:
         from hearnav.bench.policy import SB3Policy
         from hearnav.bench.runner import Task, run_episode
-        from hearnav.env.core import HearNavEnv
 
-        if self._env is None:
-            self._env = HearNavEnv(**self.suite.env_config().model_dump())
         policy, gains, returns = SB3Policy(model, deterministic=True), [], []
         for k, seed in enumerate(self.seeds):
             row = run_episode(self._env, "training", policy, Task("training", k, seed, None))
@@ -131,7 +140,7 @@ def _callback_class() -> type:
 
 
 class ProgressBar:
-    """A tqdm bar over environment steps (SB3's own bar needs ``rich``; this one needs only tqdm)."""
+    """A tqdm bar over environment steps, used when SB3's own bar cannot be (it needs ``rich``)."""
 
     def __init__(self, total: int, start: int):
         from tqdm import tqdm
@@ -267,6 +276,7 @@ class Trainer:
         self.evaluator = Evaluator(self.config)
         self.venv = make_vec_env(self.config)
         try:
+            self.evaluator.check_spaces(self.venv.observation_space)
             return self._train(ckpt)
         finally:
             self.venv.close()
@@ -295,13 +305,14 @@ class Trainer:
         self.next_checkpoint = self.start_step + cfg.checkpoint_every
         started = time.time()
         self._session_info(started, "running")
-        self.bar = ProgressBar(cfg.total_steps, self.start_step) if self.progress else None
+        sb3_bar = self.progress and _has("rich") and _has("tqdm")  # SB3's own bar needs both
+        self.bar = ProgressBar(cfg.total_steps, self.start_step) if self.progress and not sb3_bar else None
         previous = signal.signal(signal.SIGINT, self._on_sigint)
         try:
             remaining = max(0, cfg.total_steps - self.start_step)
             if remaining:
                 self.model.learn(remaining, callback=_callback_class()(self), reset_num_timesteps=False,
-                                 log_interval=1)
+                                 log_interval=1, progress_bar=sb3_bar)
         finally:
             signal.signal(signal.SIGINT, previous)
             if self.bar:

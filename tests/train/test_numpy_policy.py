@@ -101,3 +101,37 @@ def test_model_file_references(tmp_path):
         load_policy(f"ppo:{tmp_path / 'missing.zip'}")
     assert str(info.value) == (f"SB3 model '{tmp_path / 'missing.zip'}' not found (expected a .zip saved by "
                                f"training, e.g. DIR/best.zip)")
+
+
+# An import hook that makes torch and stable-baselines3 missing, as on the base install (not sys.modules[...] =
+# None: scipy looks torch up in sys.modules and would fail on None).
+BLOCK_TORCH = ("import sys\n"
+               "class Missing:\n"
+               "    def find_spec(self, name, path=None, target=None):\n"
+               "        if name.partition('.')[0] in ('torch', 'stable_baselines3'):\n"
+               "            raise ModuleNotFoundError(f'No module named {name!r}')\n"
+               "sys.meta_path.insert(0, Missing())\n")
+
+
+@pytest.mark.slow
+def test_without_torch_the_shipped_agent_benchmarks_and_model_files_say_what_to_install(tmp_path):
+    suite = tmp_path / "one.yaml"
+    import yaml
+
+    from tests.train.conftest import ENV, ROOM
+
+    suite.write_text(yaml.safe_dump({"name": "one", "episodes": 1, "seed": 5, "env": {"scenes": [ROOM], **ENV}}))
+    run = lambda *args: subprocess.run(  # noqa: E731
+        [sys.executable, "-c", BLOCK_TORCH + "from hearnav.cli.main import main; sys.exit(main(sys.argv[1:]))", *args],
+        capture_output=True, text=True)
+    done = run("bench", "--policy", "ppo-tiny", "--suite", str(suite), "--out", str(tmp_path / "b"))
+    assert done.returncode == 0, done.stderr[-1000:]
+    model = run("bench", "--policy", "ppo:x.zip", "--suite", str(suite), "--out", str(tmp_path / "c"))
+    assert model.returncode == 2
+    assert model.stderr.strip().splitlines() == [
+        "hearnav: error: loading the SB3 model 'x.zip' needs torch and stable-baselines3, which are not installed "
+        "(No module named 'stable_baselines3'); install the train extra: pip install 'hearnav[train]'"]
+    trainer = run("train", "--config", "smoke", "--out", str(tmp_path / "t"))
+    assert trainer.returncode == 2 and trainer.stderr.strip().splitlines() == [
+        "hearnav: error: hearnav train needs torch and stable-baselines3, which are not installed (No module named "
+        "'stable_baselines3'); install the train extra: pip install 'hearnav[train]'"]

@@ -147,3 +147,15 @@ def test_numpy_forward_pass_matches_the_sb3_policy_on_200_observations(suite_fil
         logits = model.policy.get_distribution(tensor).distribution.logits.numpy()[0]
     np.testing.assert_allclose(network.logits(observations[0]) - np.log(np.sum(np.exp(network.logits(observations[0])))),
                                logits, rtol=1e-5, atol=1e-5)  # torch's Categorical keeps normalised logits
+
+
+def test_eval_suite_with_other_observation_shapes_is_refused_before_training(suite_file, tmp_path):
+    data = smoke_config(str(suite_file))
+    data["env"] = {**data["env"], "n_bands": 8}
+    with pytest.raises(ConfigError) as info:
+        train(make_train_config(data), tmp_path / "run", progress=False)
+    assert str(info.value).startswith("eval suite 'one' gives observations {'binaural': (5, 4, 16), ")
+    assert "but training gives {'binaural': (5, 4, 8), " in str(info.value)
+    assert str(info.value).endswith("(expected the same shapes); give the training env the suite's feature options "
+                                    "(n_bands, n_segments, patch_size)")
+    assert not (tmp_path / "run" / "checkpoint.json").exists()
