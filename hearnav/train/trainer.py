@@ -271,6 +271,7 @@ class Trainer:
         import torch
 
         ckpt = self._check_folder()
+        self.started = time.time()  # the session's wall time includes making the environments
         torch.set_num_threads(1)
         self.folder.root.mkdir(parents=True, exist_ok=True)
         self.evaluator = Evaluator(self.config)
@@ -303,7 +304,7 @@ class Trainer:
         self.next_eval = (last + cfg.eval.every_steps) if last is not None else cfg.eval.every_steps
         self.last_eval = last
         self.next_checkpoint = self.start_step + cfg.checkpoint_every
-        started = time.time()
+        started = self.started
         self._session_info(started, "running")
         sb3_bar = self.progress and _has("rich") and _has("tqdm")  # SB3's own bar needs both
         self.bar = ProgressBar(cfg.total_steps, self.start_step) if self.progress and not sb3_bar else None
