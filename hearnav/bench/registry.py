@@ -59,6 +59,7 @@ def load_builtins() -> None:
     for path in sorted(bundled.folder("baselines").glob("*.py")):
         if not path.name.startswith("_"):
             _load_file(path)
+    import hearnav.train.agents  # noqa: F401  (registers the shipped numpy agents; no torch)
 
 
 def policy_names() -> list[str]:
@@ -76,9 +77,15 @@ def _registered_in(module: Any, name: str) -> Any:
 
 
 def load_policy(reference: str) -> tuple[str, Any]:
-    """(display name, policy object) for a registered name, ``module:attr`` or ``file.py:attr``; ``attr`` may
+    """(display name, policy object) for a registered name, ``module:attr``, ``file.py:attr`` or a saved SB3
+    model ``ppo:path/to/model.zip`` (also ``a2c:``, ``dqn:``; loads through cloudpickle) or an exported network
+    ``npz:path/to/agent.npz`` (:mod:`hearnav.train.numpy_policy`); ``attr`` may
     also be a name the module or file registers with :func:`register_policy` (``my_policy.py:turn-to-target``)."""
     load_builtins()
+    from hearnav.train.sb3 import PREFIXES, model_policy  # imports torch only when a model is loaded
+
+    if reference.partition(":")[0] in PREFIXES:  # ppo:DIR/best.zip (a saved SB3 model) or npz:agent.npz
+        return reference, model_policy(reference)
     if ":" not in reference:
         try:
             return reference, as_policy(POLICIES.get(reference), reference)
