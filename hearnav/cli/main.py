@@ -13,7 +13,7 @@ import sys
 import traceback
 
 from hearnav import __version__
-from hearnav.cli import bench_cmd, scenes_cmd
+from hearnav.cli import bench_cmd, demo_cmd, plot_cmd, report_cmd, scenes_cmd
 from hearnav.errors import HearnavError, exception_line, shown_path
 
 #: What failed, by the OSError subclass (the rest: "cannot use").
@@ -31,6 +31,9 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
     scenes_cmd.register(sub)
     bench_cmd.register(sub)
+    plot_cmd.register(sub)
+    report_cmd.register(sub)
+    demo_cmd.register(sub)
     return parser
 
 
