@@ -39,7 +39,7 @@ def _path(ax, grid, poses: Sequence[Sequence[int]], collided: Sequence[int], col
     ax.scatter(*xy[-1], marker=style.END_MARKER, s=60, fc=colour, ec="k", lw=0.8, zorder=8)
     hit = [int(s) for s in collided if 0 < int(s) < len(poses)]
     if hit:
-        ax.scatter(xy[hit, 0], xy[hit, 1], marker=style.COLLISION_MARKER, s=60, c="k", lw=1.8, zorder=9)
+        ax.scatter(xy[hit, 0], xy[hit, 1], marker=style.COLLISION_MARKER, s=60, c="k", lw=1.8, zorder=9, gid="blocked")
 
 
 def draw_sources(ax, sources: Sequence[SourceMark], standoff_m: float) -> None:
@@ -105,7 +105,8 @@ def episode_figure(scene, grid, index: int, seed: int, rows: Mapping[str, dict],
         _path(ax, grid, row["poses"], row.get("collided_steps") or [], colours[name])
         if bound_pose is not None:
             bx, by = grid.centres[bound_pose[0]]
-            ax.scatter(bx, by, marker=style.BOUND_MARKER, s=80, fc="white", ec=style.BOUND_COLOUR, lw=2, zorder=9)
+            ax.scatter(bx, by, marker=style.BOUND_MARKER, s=80, fc="white", ec=style.BOUND_COLOUR, lw=2, zorder=9,
+                       gid="bound")
         gain = row.get("gain_db")
         bound = row.get("oracle_gain_db")
         gain_text = "n/a" if gain is None else f"{gain:+.1f} dB"
@@ -136,7 +137,8 @@ def arrangement_figure(scene, grid, sources: Sequence[SourceMark], standoff_m: f
     fig, ax = style.new_figure(2.8 + 0.75 * w, 1.2 + 0.75 * h)
     draw_plan(ax, scene, grid, label_spots=False, show_spots=False, faint=True)
     ok = np.isfinite(smap.score_db)
-    artist = draw_score_map(ax, grid, smap, *(np.nanpercentile(smap.score_db, [2, 98]) if ok.any() else (None, None)))
+    vmin, vmax = np.nanpercentile(smap.score_db, [2, 98]) if ok.any() else (None, None)
+    artist = draw_score_map(ax, grid, smap, vmin=vmin, vmax=vmax)
     draw_sources(ax, sources, standoff_m)
     if ok.any():
         best = int(np.nanargmax(smap.score_db))
