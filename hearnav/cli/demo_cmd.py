@@ -59,7 +59,7 @@ def run(args) -> int:
         feedback.note("drawing the figures and writing the report")
         report, paths = make_report(load_run(out), out / "report.html", score_map=True, feedback=feedback)
     print(format_table(summary))
-    print(f"\nfigures: {len(paths)} file(s) in {report.parent / 'figures'}")
-    print(f"audio: {out / 'audio'}")
-    print(f"report: {report}  (open it in a browser; it works offline)")
+    print(f"\nfigures: {len(paths)} file(s) in {(report.parent / 'figures').resolve()}")
+    print(f"audio: {(out / 'audio').resolve()}")
+    print(f"report: {report.resolve()}  (open it in a browser; it works offline)")
     return 1 if summary.failures else 0

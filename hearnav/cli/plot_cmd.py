@@ -83,7 +83,8 @@ def run_score_map(args) -> int:
     from hearnav.env import HearNavEnv
     from hearnav.errors import ConfigError
     from hearnav.plots import style
-    from hearnav.plots.arrangement import arrange
+    from hearnav.plots.arrangement import arrange, spot_indices
+    from hearnav.scene.library import load_named
     from hearnav.plots.episodes import sources_of, standoff_m
     from hearnav.plots.progress import Feedback
     from hearnav.plots.scoremap import score_map
@@ -97,6 +98,7 @@ def run_score_map(args) -> int:
         raise ConfigError(f"--windows {args.windows}: expected 1 to 64 windows; choose a value in that range")
     if not args.distractor:
         raise ConfigError("--distractor: expected at least one distractor spot, found none; add --distractor SPOT")
+    spot_indices(load_named(args.scene), args.target, args.distractor)  # names checked before any building
     env = HearNavEnv(args.config, scenes=[args.scene], distractors=(1, 8), min_start_distance=0.0,
                      budget=args.windows)
     with Feedback() as feedback:

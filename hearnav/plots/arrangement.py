@@ -25,17 +25,22 @@ def _category(scene, spot: int, options: Sequence[str], wanted: str | None, role
     return wanted
 
 
+def spot_indices(scene, target: str, distractors: Sequence[str]) -> list[int]:
+    """The spot indices of the target and the distractors; raises one line for an unknown or repeated name."""
+    names = [target, *distractors]
+    if len(set(names)) != len(names):
+        raise ConfigError(f"--target and --distractor: expected different spots, found {', '.join(names)}; name "
+                          f"each spot once")
+    return [scene.spots.index(scene.spot(n)) for n in names]  # an unknown name lists the scene's spots
+
+
 def arrange(env, target: str, distractors: Sequence[str], target_category: str | None = None,
             distractor_category: str | None = None, seed: int = 0) -> None:
     """Start an episode of ``env`` (made on one scene) with the target and distractors at the named spots, at
     0 dB each; the sounds' voices and takes come from the episode drawn with ``seed``."""
     env.reset(seed=seed)  # loads the world and draws voices, takes and a start pose
     scene = env.world.scene
-    names = [target, *distractors]
-    if len(set(names)) != len(names):
-        raise ConfigError(f"--target and --distractor: expected different spots, found {', '.join(names)}; name "
-                          f"each spot once")
-    spots = [scene.spots.index(scene.spot(n)) for n in names]  # an unknown name lists the scene's spots
+    spots = spot_indices(scene, target, distractors)
     cfg = env.config
     drawn = env.plan.sources
     plans = []
