@@ -4,8 +4,15 @@ printed, one-line errors."""
 import pytest
 
 from hearnav.cli import main
-from tests.plots.run_fixtures import (env_cache, non_blank, private_cache, run_dir, scene_dir,  # noqa: F401
-                                      suite_file)
+from tests.plots import run_fixtures
+from tests.plots.run_fixtures import non_blank
+
+# the shared tiny run and the fixtures it needs (assigned, so the test functions' parameters use them)
+env_cache = run_fixtures.env_cache
+private_cache = run_fixtures.private_cache
+run_dir = run_fixtures.run_dir
+scene_dir = run_fixtures.scene_dir
+suite_file = run_fixtures.suite_file
 
 
 def _one_line_error(capsys) -> str:

@@ -7,7 +7,10 @@ import pytest
 import yaml
 
 from tests.env.conftest import small_scene
-from tests.world_fixtures import FAST_ACOUSTICS, ROOM, env_cache, private_cache  # noqa: F401
+from tests import world_fixtures
+from tests.world_fixtures import FAST_ACOUSTICS, ROOM
+
+env_cache, private_cache = world_fixtures.env_cache, world_fixtures.private_cache
 
 POLICIES = ["still", "random-walk", "approach"]
 SUITE = {"name": "plots-test", "description": "3 short episodes on the test room", "episodes": 3, "seed": 7,

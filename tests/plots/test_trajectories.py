@@ -8,7 +8,15 @@ from hearnav.plots import style
 from hearnav.plots.rundata import load_run
 from hearnav.plots.runplots import plot_trajectories
 from hearnav.plots.trajectories import episode_figure, legend_handles
-from tests.plots.run_fixtures import POLICIES, env_cache, non_blank, private_cache, run_dir, scene_dir, suite_file  # noqa: F401
+from tests.plots import run_fixtures
+from tests.plots.run_fixtures import POLICIES, non_blank
+
+# the shared tiny run and the fixtures it needs (assigned, so the test functions' parameters use them)
+env_cache = run_fixtures.env_cache
+private_cache = run_fixtures.private_cache
+run_dir = run_fixtures.run_dir
+scene_dir = run_fixtures.scene_dir
+suite_file = run_fixtures.suite_file
 
 
 @pytest.fixture

@@ -9,7 +9,14 @@ import pytest
 from hearnav.cli.report_cmd import make_report
 from hearnav.plots.rundata import load_run
 from hearnav.report.html import CAUTION, audio_files, table_html
-from tests.plots.run_fixtures import env_cache, private_cache, run_dir, scene_dir, suite_file  # noqa: F401
+from tests.plots import run_fixtures
+
+# the shared tiny run and the fixtures it needs (assigned, so the test functions' parameters use them)
+env_cache = run_fixtures.env_cache
+private_cache = run_fixtures.private_cache
+run_dir = run_fixtures.run_dir
+scene_dir = run_fixtures.scene_dir
+suite_file = run_fixtures.suite_file
 
 
 class Page(HTMLParser):
