@@ -35,6 +35,13 @@ def register(sub) -> None:
     g.add_argument("--reference", help="policy the others are compared with (default the summary's)")
     g.add_argument("--out", type=Path, help=f"figures folder (default RUN_DIR/{FIGURES})")
     g.set_defaults(run=run_gains)
+    tr = kinds.add_parser("training", help="learning curves from the trainer's progress.csv",
+                          description="Return, validation gain and entropy against environment steps, from the "
+                                      "progress.csv of a training folder; --run adds a run's baselines as lines.")
+    tr.add_argument("train_dir", type=Path, metavar="TRAIN_DIR")
+    tr.add_argument("--run", dest="baseline_run", type=Path, metavar="RUN_DIR", help="a benchmark run whose agents' mean gains to draw")
+    tr.add_argument("--out", type=Path, help=f"figures folder (default TRAIN_DIR/{FIGURES})")
+    tr.set_defaults(run=run_training)
     s = sub.add_parser("score-map", help="the separator's score at every cell for one arrangement of sources",
                        description="Score every cell (best heading) of a scene with the target and distractors at "
                                    "named spots, over K windows, and draw the map; no run needed.")
@@ -77,6 +84,15 @@ def run_gains(args) -> int:
     run = load_run(args.run_dir)
     out = output_folder(args.out or args.run_dir / FIGURES)
     return _where(plot_gains(run, out, args.reference), out)
+
+
+def run_training(args) -> int:
+    from hearnav.plots.rundata import load_run
+    from hearnav.plots.training import plot_training
+
+    run = load_run(args.baseline_run) if args.baseline_run else None
+    out = output_folder(args.out or args.train_dir / FIGURES)
+    return _where(plot_training(args.train_dir, out, run), out)
 
 
 def run_score_map(args) -> int:

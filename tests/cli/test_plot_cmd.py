@@ -80,12 +80,16 @@ def test_score_map_bad_spots_are_one_line(args, message, tmp_path, capsys):
     assert _one_line_error(capsys).startswith(message)
 
 
-def test_report_command(run_dir, suite_file, tmp_path, capsys):
+def test_report_command_with_training_curves(run_dir, suite_file, tmp_path, capsys):
+    from tests.plots.test_training import ROWS, _write
+
+    train = _write(tmp_path / "train", ROWS)
     out = tmp_path / "r" / "report.html"
-    assert main(["report", str(run_dir), "--suite", str(suite_file), "--out", str(out)]) == 0
+    assert main(["report", str(run_dir), "--suite", str(suite_file), "--train", str(train), "--out", str(out)]) == 0
     stdout = capsys.readouterr().out.splitlines()
     assert stdout[0] == f"report: {out.resolve()}"
     assert out.is_file() and (out.parent / "figures" / "trajectories-episode0000.svg").is_file()
+    assert "<b>Training</b>" in out.read_text() and (out.parent / "figures" / "training.svg").is_file()
 
 
 def test_report_without_the_suite_notes_the_missing_trajectories(run_dir, tmp_path):
