@@ -127,3 +127,13 @@ def test_full_demo(tmp_path, capsys):
     out = tmp_path / "demo"
     assert main(["demo", "--out", str(out)]) == 0
     assert (out / "report.html").is_file() and non_blank(out / "figures" / "trajectories-episode0000.png")
+
+
+def test_out_under_a_file_is_one_line_and_the_file_is_kept(run_dir, tmp_path, capsys):
+    a_file = tmp_path / "a_file"
+    a_file.write_text("the user's file")
+    assert main(["plot", "gains", str(run_dir), "--out", str(a_file / "sub")]) == 2
+    assert _one_line_error(capsys) == (f"hearnav: error: --out '{a_file / 'sub'}': expected a folder path that can be "
+                                       f"created, found a file on its way, '{a_file}'; give a new or existing folder "
+                                       f"you can write to")
+    assert a_file.read_text() == "the user's file"
