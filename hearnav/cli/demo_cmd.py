@@ -51,8 +51,8 @@ def run(args) -> int:
     workers = args.workers or max(1, min(2, os.cpu_count() or 1))
     with Feedback() as feedback:
         policies = demo_policies(feedback.note)
-        feedback.note(f"demo: {len(policies)} policies on {suite.episodes} episodes of suite {suite.name!r} "
-                      f"({suite.description}); results in {out}")
+        feedback.note(f"demo: {len(policies)} policies ({', '.join(policies)}) on suite {suite.name!r}: "
+                      f"{suite.description.rstrip('.')}; results in {out.resolve()}")
         summary = run_bench(suite, policies, out, workers=workers, reference="still", save_audio=DEMO_AUDIO,
                             progress=feedback)
         feedback.close_bar()

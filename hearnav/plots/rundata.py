@@ -27,8 +27,12 @@ class Run:
 
     @property
     def policies(self) -> list[str]:
-        """Policy names in the order their first row appears."""
-        return list(dict.fromkeys(str(r["policy"]) for r in self.rows))
+        """Policy names in a fixed order, so colours stay the same from figure to figure and run to run (rows
+        arrive in the order workers finish): the reference, the other agents, then privileged policies, each by
+        name."""
+        names = set(str(r["policy"]) for r in self.rows)
+        privileged = {str(r["policy"]) for r in self.rows if r.get("privileged")}
+        return sorted(names, key=lambda p: (p != self.reference, p in privileged, p))
 
     @property
     def reference(self) -> str | None:

@@ -35,7 +35,7 @@ color:#1b1b1b;background:#fff;line-height:1.45}
 h1{font-size:1.6em;margin-bottom:.2em}h2{font-size:1.25em;border-bottom:2px solid #0072B2;padding-bottom:.2em;margin-top:1.8em}
 h3{font-size:1.05em;margin:1.2em 0 .4em}
 .meta{color:#555;font-size:.9em}
-table{border-collapse:collapse;font-size:.85em;margin:.6em 0}
+.scroll{overflow-x:auto}table{border-collapse:collapse;font-size:.85em;margin:.6em 0}
 th,td{border:1px solid #d0d0d0;padding:.3em .6em;text-align:left;white-space:nowrap}
 th{background:#eef4fa}tr:nth-child(even) td{background:#fafafa}
 .note{color:#444;font-size:.9em;max-width:60em}
@@ -66,7 +66,7 @@ def table_html(header: Sequence[str], body: Sequence[Sequence[str]]) -> str:
     """An HTML table of text cells (escaped)."""
     head = "".join(f"<th>{html.escape(h)}</th>" for h in header)
     rows = "".join("<tr>" + "".join(f"<td>{html.escape(c)}</td>" for c in row) + "</tr>" for row in body)
-    return f"<table><thead><tr>{head}</tr></thead><tbody>{rows}</tbody></table>"
+    return f"<div class='scroll'><table><thead><tr>{head}</tr></thead><tbody>{rows}</tbody></table></div>"
 
 
 def category_cells(rows: Sequence[dict]) -> tuple[list[str], list[list[str]]]:

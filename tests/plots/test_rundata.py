@@ -69,3 +69,9 @@ def test_unknown_policy_names_the_close_one():
     with pytest.raises(ConfigError) as err:
         check_policies(RUN, ["c"])
     assert str(err.value) == "--policy 'c': expected a policy of this run, found none with that name; valid names: a, b"
+
+
+def test_policy_order_is_fixed_reference_agents_then_privileged():
+    rows = [{"policy": p, "episode_seed": 1, "status": "ok", "privileged": p == "oracle"}
+            for p in ("zeta", "oracle", "still", "alpha")]
+    assert Run(None, rows, {}, {"reference": "still"}).policies == ["still", "alpha", "zeta", "oracle"]

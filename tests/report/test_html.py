@@ -105,8 +105,8 @@ def test_tables_hold_the_summary(report):
 
 
 def test_cells_are_escaped():
-    assert table_html(["<a>"], [["x & y"]]) == ("<table><thead><tr><th>&lt;a&gt;</th></tr></thead><tbody><tr>"
-                                               "<td>x &amp; y</td></tr></tbody></table>")
+    assert table_html(["<a>"], [["x & y"]]) == ("<div class='scroll'><table><thead><tr><th>&lt;a&gt;</th></tr></thead>"
+                                               "<tbody><tr><td>x &amp; y</td></tr></tbody></table></div>")
 
 
 def test_a_run_without_audio_says_so(tmp_path):
