@@ -144,8 +144,8 @@ def render(run_folder: Path, summary: Summary | None, rows: Sequence[dict], figu
         header, body = scene_cells(summary)
         if body:
             out += ["<h2>Per scene</h2>", f"<p class='note'>{esc(SCENE_TITLE)}</p>", table_html(header, body)]
-        comp = [[name, str(c.get("n")), _num(c.get("mean_difference")), _ci(c.get("ci95")), _num(c.get("wilcoxon_p"), 3)]
-                for name, c in summary.comparisons.items()]
+        comp = [[name, str(c.get("n")), _num(c.get("mean_difference")), _ci(c.get("ci95")),
+                 _p(c.get("wilcoxon_p"))] for name, c in summary.comparisons.items()]
         if comp:
             out += ["<h2>Paired comparisons</h2>",
                     f"<p class='note'>Gain of each policy minus the gain of {esc(summary.reference)} on the same "
@@ -161,8 +161,14 @@ def render(run_folder: Path, summary: Summary | None, rows: Sequence[dict], figu
     return "\n".join(out)
 
 
-def _num(x, digits: int = 2) -> str:
-    return "n/a" if x is None else f"{x:.{digits}g}" if digits == 3 else f"{x:.{digits}f}"
+def _num(x: float | None) -> str:
+    """A dB value with two decimals, or n/a."""
+    return "n/a" if x is None else f"{x:.2f}"
+
+
+def _p(x: float | None) -> str:
+    """A p-value with three significant digits, or n/a."""
+    return "n/a" if x is None else f"{x:.3g}"
 
 
 def _ci(pair) -> str:
