@@ -17,8 +17,9 @@ DEMO_AUDIO = 2
 def register(sub) -> None:
     """Add the ``demo`` subcommand."""
     p = sub.add_parser("demo", help="benchmark the baselines on a short suite and write plots and a report",
-                       description="Build what is needed, benchmark the baselines on the short demo suite (maple-flat), "
-                                   "save a few WAVs, and write figures and report.html. A few minutes on 2 cores.")
+                       description="Build what is needed, benchmark the baselines on the short demo suite "
+                                   "(maple-flat), save a few WAVs, and write figures and report.html. A few minutes "
+                                   "on 2 cores.")
     p.add_argument("--out", type=Path, default=Path("hearnav-demo"), help="results folder (default ./hearnav-demo)")
     p.add_argument("--workers", type=int, default=0, help="worker processes (default: up to 2, one per CPU)")
     p.set_defaults(run=run)

@@ -39,7 +39,8 @@ def register(sub) -> None:
                           description="Return, validation gain and entropy against environment steps, from the "
                                       "progress.csv of a training folder; --run adds a run's baselines as lines.")
     tr.add_argument("train_dir", type=Path, metavar="TRAIN_DIR")
-    tr.add_argument("--run", dest="baseline_run", type=Path, metavar="RUN_DIR", help="a benchmark run whose agents' mean gains to draw")
+    tr.add_argument("--run", dest="baseline_run", type=Path, metavar="RUN_DIR",
+                    help="a benchmark run whose agents' mean gains to draw")
     tr.add_argument("--out", type=Path, help=f"figures folder (default TRAIN_DIR/{FIGURES})")
     tr.set_defaults(run=run_training)
     s = sub.add_parser("score-map", help="the separator's score at every cell for one arrangement of sources",
@@ -53,7 +54,8 @@ def register(sub) -> None:
     s.add_argument("--windows", type=int, default=4, metavar="K", help="windows averaged (default 4)")
     s.add_argument("--seed", type=int, default=0, help="seed of the sounds' takes (default 0)")
     s.add_argument("--config", default="default", help="environment config (default: default)")
-    s.add_argument("--out", type=Path, required=True, metavar="FILE", help="image file (.png; an .svg is written beside it)")
+    s.add_argument("--out", type=Path, required=True, metavar="FILE",
+                   help="image file (.png; an .svg is written beside it)")
     s.set_defaults(run=run_score_map)
 
 

@@ -48,8 +48,8 @@ def load_run(folder: str | os.PathLike) -> Run:
         found = "a file" if folder.exists() else "nothing there"
         raise ConfigError(f"RUN_DIR {shown_path(str(folder))}: expected a benchmark run folder, found {found}; {fix}")
     if not (folder / EPISODES_FILE).is_file():
-        raise ConfigError(f"RUN_DIR {shown_path(str(folder))}: expected a benchmark run folder holding {EPISODES_FILE}, "
-                          f"found none; {fix}")
+        raise ConfigError(f"RUN_DIR {shown_path(str(folder))}: expected a benchmark run folder holding "
+                          f"{EPISODES_FILE}, found none; {fix}")
     rows = read_rows(folder / EPISODES_FILE)
     if not rows:
         raise ConfigError(f"RUN_DIR {shown_path(str(folder))}: expected episode rows in {EPISODES_FILE}, found an "

@@ -20,7 +20,8 @@ TARGET_COLOUR = OKABE_ITO["vermillion"]
 DISTRACTOR_COLOUR = "0.45"
 BOUND_COLOUR = "0.1"
 #: Marker shapes, so that roles differ by shape as well as colour.
-TARGET_MARKER, DISTRACTOR_MARKER, START_MARKER, END_MARKER, COLLISION_MARKER, BOUND_MARKER = "*", "X", "o", "s", "x", "D"
+TARGET_MARKER, DISTRACTOR_MARKER, BOUND_MARKER = "*", "X", "D"
+START_MARKER, END_MARKER, COLLISION_MARKER = "o", "s", "x"
 #: Both formats every figure is written in: PNG for the report and quick looks, SVG for print.
 FORMATS = ("png", "svg")
 DPI = 110

@@ -31,8 +31,9 @@ def find_progress(folder: str | os.PathLike) -> Path:
     """The ``progress.csv`` of a training folder (at its top, else the first found below it)."""
     folder = Path(folder)
     if not folder.is_dir():
-        raise ConfigError(f"TRAIN_DIR {shown_path(str(folder))}: expected a training folder, found "
-                          f"{'a file' if folder.exists() else 'nothing there'}; give the --out folder of 'hearnav train'")
+        found = "a file" if folder.exists() else "nothing there"
+        raise ConfigError(f"TRAIN_DIR {shown_path(str(folder))}: expected a training folder, found {found}; give the "
+                          f"--out folder of 'hearnav train'")
     top = folder / PROGRESS_FILE
     found = top if top.is_file() else next(iter(sorted(folder.rglob(PROGRESS_FILE))), None)
     if found is None:
