@@ -13,7 +13,7 @@ import sys
 import traceback
 
 from hearnav import __version__
-from hearnav.cli import bench_cmd, scenes_cmd, train_cmd
+from hearnav.cli import bench_cmd, demo_cmd, plot_cmd, report_cmd, scenes_cmd, train_cmd
 from hearnav.errors import HearnavError, exception_line, shown_path
 
 #: What failed, by the OSError subclass (the rest: "cannot use").
@@ -32,6 +32,9 @@ def build_parser() -> argparse.ArgumentParser:
     scenes_cmd.register(sub)
     bench_cmd.register(sub)
     train_cmd.register(sub)
+    plot_cmd.register(sub)
+    report_cmd.register(sub)
+    demo_cmd.register(sub)
     return parser
 
 

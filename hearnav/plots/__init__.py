@@ -1,1 +1,1 @@
-"""Figures: floorplans, trajectories, per-episode gains."""
+"""Figures: floorplans, trajectories over score maps, per-episode gains, training curves (PNG and SVG, Agg)."""

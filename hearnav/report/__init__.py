@@ -1,4 +1,4 @@
-"""Presentation of benchmark results: the plain-text table (the HTML report will live here too)."""
+"""Presentation of benchmark results: the plain-text table and the self-contained HTML report (report/html.py)."""
 
 from hearnav.report.table import format_table
 

@@ -32,6 +32,11 @@ def _columns(header: Sequence[str], body: Sequence[Sequence[str]]) -> list[str]:
 
 
 def _overall(result: Summary) -> list[str]:
+    return _columns(*overall_cells(result))
+
+
+def overall_cells(result: Summary) -> tuple[list[str], list[list[str]]]:
+    """(header, body) of the overall table as text cells (see :func:`format_table`); the HTML report uses them."""
     reference = result.reference
     header = ["policy", "privileged", "n", "failures", "gain dB", "final SI-SDR dB", "normalised gain",
               "median normalised", f"vs {reference}: diff dB", "pairs", "p"]
@@ -49,15 +54,21 @@ def _overall(result: Summary) -> list[str]:
         body.append([name, "yes" if entry["privileged"] else "no", str(entry["ok"]), str(entry["failures"]),
                      *(_mean_ci(entry.get(m)) for m in METRICS), _mean_ci(norm, "ratio_of_means"),
                      _mean_ci(norm, "median", "median_ci95"), vs, pairs, p])
-    return _columns(header, body)
+    return header, body
+
+
+def scene_cells(result: Summary) -> tuple[list[str], list[list[str]]]:
+    """(header, body) of the per-scene table as text cells; the body is empty for a summary of format 1."""
+    body = [[name, scene, str(s["n"]), _mean_ci(s.get("gain_db")), _mean_ci(s.get("normalised_gain"), "ratio_of_means")]
+            for name, entry in result.policies.items() for scene, s in entry.get("scenes", {}).items()]
+    return ["policy", "scene", "n", "gain dB", "normalised gain"], body
 
 
 def _per_scene(result: Summary) -> list[str]:
-    body = [[name, scene, str(s["n"]), _mean_ci(s.get("gain_db")), _mean_ci(s.get("normalised_gain"), "ratio_of_means")]
-            for name, entry in result.policies.items() for scene, s in entry.get("scenes", {}).items()]
+    header, body = scene_cells(result)
     if not body:  # a summary of format 1, or one without finished episodes
         return []
-    return ["", SCENE_TITLE, *_columns(["policy", "scene", "n", "gain dB", "normalised gain"], body)]
+    return ["", SCENE_TITLE, *_columns(header, body)]
 
 
 def format_table(result: Summary) -> str:
