@@ -1,18 +1,12 @@
-"""The ``approach`` reference: walk to the best pose just outside the target's stand-off ring, then stay.
+"""The ``approach`` reference: walk to the reachable cell nearest the target, just outside its stand-off ring,
+face the target and stay.
 
-Privileged: it reads the grid, its own pose, the target's position and the separator's look-ahead scores from
-``PrivilegedView``. Paths are breadth-first searches over (cell, heading) poses with the environment's own
-moves (``view.next_pose``, which refuses the stand-off ring as it refuses walls).
-
-The goal is chosen once, at the first step:
-
-1. **Edge cells.** The reachable cells nearest the target: those within one grid spacing of the smallest
-   distance from the target of any reachable cell. With a ring they are the cells just outside it.
-2. **Best pose.** Every heading of every edge cell that the remaining budget reaches is scored by the
-   separator on the next ``eval_windows`` windows (``view.scores_ahead``), and the best mean over the windows
-   in which the target is scored wins (:func:`hearnav.bench.oracle.paired_gains`), ties going to the shorter
-   path. Where no edge pose is within the budget,
-   the nearest edge pose by path length is the goal.
+Privileged: it reads the grid, its own pose and the target's position from ``PrivilegedView``, never a score:
+it is what knowing *where* the target is buys, so the oracle bound's excess over it is what the choice of
+position around the target carries. Paths are breadth-first searches over (cell, heading) poses with the
+environment's own moves (``view.next_pose``, which refuses the stand-off ring as it refuses walls). The goal is
+chosen once, at the first step: the reachable cell nearest the target (ties: the shorter path), with the
+heading that points most nearly at the target.
 """
 
 from __future__ import annotations
@@ -22,7 +16,6 @@ from collections import deque
 import numpy as np
 
 import hearnav
-from hearnav.bench.oracle import paired_gains
 from hearnav.env import Action
 
 Pose = tuple[int, int]
@@ -52,25 +45,19 @@ def actions_to(parent: dict[Pose, tuple[Pose, int] | None], goal: Pose) -> list[
     return actions[::-1]
 
 
-def edge_cells(view, cells: set[int]) -> list[int]:
-    """The cells of ``cells`` within one grid spacing of the smallest distance from the target among them."""
-    ids = np.array(sorted(cells))
-    dist = np.hypot(*(np.asarray(view.grid.centres, float)[ids] - np.asarray(view.target_xy, float)).T)
-    return [int(c) for c in ids[dist <= dist.min() + view.grid.spacing + 1e-9]]
+def facing(view, cell: int) -> int:
+    """The heading at ``cell`` that points most nearly at the target."""
+    dx, dy = np.asarray(view.target_xy, float) - np.asarray(view.grid.centres[cell], float)
+    angles = np.array([view.grid.heading_angle(h) for h in range(view.grid.n_headings)])
+    return int(np.argmin(np.abs(np.angle(np.exp(1j * (np.arctan2(dy, dx) - angles))))))
 
 
 def choose_goal(view, parent: dict[Pose, tuple[Pose, int] | None]) -> Pose:
-    """The best-scoring edge pose within the remaining budget, else the nearest edge pose (see the module)."""
-    depth: dict[Pose, int] = {}
-    for pose in parent:  # breadth-first order: a parent's depth is known before its children's
-        depth[pose] = 0 if parent[pose] is None else depth[parent[pose][0]] + 1
-    edge = set(edge_cells(view, {c for c, _ in parent}))
-    poses = sorted((p for p in parent if p[0] in edge), key=lambda p: (depth[p], p))
-    within = [p for p in poses if depth[p] <= view.steps_left]
-    if not within:
-        return poses[0]
-    gains, _ = paired_gains(view.scores_ahead(within), 0)
-    return within[int(np.argmax(gains))]  # argmax keeps the first (shortest path) of equal scores
+    """The reachable cell nearest the target, facing it (see the module)."""
+    cells = list(dict.fromkeys(c for c, _ in parent))  # in breadth-first order of their first pose
+    dist = np.hypot(*(np.asarray(view.grid.centres, float)[cells] - np.asarray(view.target_xy, float)).T)
+    cell = cells[int(np.argmin(dist))]  # breadth-first order: the first of equal distances is the nearer by path
+    return cell, facing(view, cell)
 
 
 @hearnav.register_policy("approach")

@@ -263,6 +263,15 @@ class HearNavEnv(gym.Env):
         obs, info = self._begin()
         return obs, {**info, "embodiment": self.embodiment}
 
+    def start_plan(self, plan: EpisodePlan):
+        """Start an episode from a given plan (its scene must be the current world's), as reset does from a drawn
+        one: for tools that score a chosen arrangement (``hearnav score-map``). Returns (obs, info)."""
+        if self.world is None or plan.scene != self.plan.scene:
+            raise ConfigError(f"start_plan expected a plan on the current scene "
+                              f"({None if self.plan is None else self.plan.scene!r}), got {plan.scene!r}; reset first")
+        self.plan = plan
+        return self._begin()
+
     def _begin(self):
         world, plan = self.world, self.plan
         n_windows = self.config.budget + 1 + MAX_LEAD_IN + self.config.eval_windows

@@ -49,6 +49,5 @@ def arrange(env, target: str, distractors: Sequence[str], target_category: str |
         options = (cfg.target_categories or cfg.sound_categories) if k == 0 else cfg.sound_categories
         category = _category(scene, spot, options, target_category if k == 0 else distractor_category, role)
         like = drawn[min(k, len(drawn) - 1)]
-        plans.append(SourcePlan(spot, category, cfg.sound_pool, 0, like.take, 0.0, role))
-    env.plan = dataclasses.replace(env.plan, sources=tuple(plans))
-    env._begin()  # the environment's own start of an episode, on this plan (no public hook sets a plan)
+        plans.append(SourcePlan(spot, category, cfg.sound_pool, 0, like.take, like.offset, 0.0, role))
+    env.start_plan(dataclasses.replace(env.plan, sources=tuple(plans)))

@@ -107,13 +107,13 @@ def test_approach_walks_to_the_best_pose_just_outside_the_ring(make_env):
         assert not any(i["collided"] for i in out["infos"])
 
 
-def test_approach_chooses_the_edge_pose_the_separator_scores_best(make_env):
+def test_approach_goes_to_the_nearest_reachable_cell_facing_the_target(make_env):
     env = make_env(budget=40)
     obs, info = env.reset(seed=1)
     view = env.unwrapped.privileged
     _, policy = load_policy("approach")
     policy.reset(obs, {**info, "privileged": view})
-    policy.act(obs, {**info, "privileged": view})  # chooses its goal on the window the next step will hear
+    policy.act(obs, {**info, "privileged": view})
     depth, todo = {tuple(view.pose): 0}, [tuple(view.pose)]
     for pose in todo:  # breadth-first over poses (Moore 1959)
         for action in range(3):
@@ -122,11 +122,13 @@ def test_approach_chooses_the_edge_pose_the_separator_scores_best(make_env):
                 depth[nxt] = depth[pose] + 1
                 todo.append(nxt)
     dist = {c: _target_distance(env, c) for c, _ in depth}
-    edge = [p for p in depth if dist[p[0]] <= min(dist.values()) + view.grid.spacing + 1e-9 and depth[p] <= 40]
-    assert policy.goal in edge
-    # chosen before its first step, on the next eval_windows windows (nothing has advanced since)
-    means = {p: np.nanmean(view.scores_ahead([p])[:, 0]) for p in edge}
-    assert means[policy.goal] == pytest.approx(max(means.values()), abs=1e-9)
+    cell, heading = policy.goal
+    assert dist[cell] == pytest.approx(min(dist.values()), abs=1e-9)  # nearest reachable cell (outside the ring)
+    assert dist[cell] >= env.config.standoff_m - 1e-9
+    # facing: the heading's direction is within half a heading step of the bearing to the target (common practice)
+    dx, dy = np.asarray(view.target_xy) - np.asarray(view.grid.centres[cell])
+    off = np.angle(np.exp(1j * (np.arctan2(dy, dx) - view.grid.heading_angle(heading))))
+    assert abs(off) <= np.pi / view.grid.n_headings + 1e-9
 
 
 def test_greedy_oracle_gains_over_standing_still(make_env):
