@@ -111,12 +111,18 @@ def make_config(config: str | Path | EnvConfig | dict | None = None, **overrides
 
 def load_yaml(config: str | Path) -> dict:
     """The mapping in an environment YAML file, found by path or by bundled name."""
+    return read_mapping(config, CONFIG_DIR, "environment config")[1] or {}
+
+
+def read_mapping(config: str | Path, folder: Path, what: str) -> tuple[Path, dict | None]:
+    """The path and the mapping (None for an empty file) of a YAML config given by path or by a bundled name in
+    ``folder``; anything else is a one-line ConfigError naming ``what`` and the file."""
     path = Path(config)
     if not path.suffix and not path.exists():
-        path = CONFIG_DIR / f"{config}.yaml"
+        path = folder / f"{config}.yaml"
     if not path.is_file():
-        names = sorted(p.stem for p in CONFIG_DIR.glob("*.yaml"))
-        raise ConfigError(f"environment config {str(config)!r} not found (expected a YAML file or one of "
+        names = sorted(p.stem for p in folder.glob("*.yaml"))
+        raise ConfigError(f"{what} {str(config)!r} not found (expected a YAML file or one of "
                           f"{', '.join(names)}); {did_you_mean(str(config), names)}")
     try:
         data = load_yaml_text(path.read_text(encoding="utf-8"))
@@ -124,8 +130,6 @@ def load_yaml(config: str | Path) -> dict:
         raise ConfigError(f"{path}: refused: {exc}") from None
     except yaml.YAMLError as exc:
         raise ConfigError(f"{path}: not valid YAML (expected a mapping of options, got {str(exc).splitlines()[0]})") from None
-    if data is None:
-        return {}
-    if not isinstance(data, dict):
+    if data is not None and not isinstance(data, dict):
         raise ConfigError(f"{path}: expected a mapping of options, got {type(data).__name__}")
-    return data
+    return path, data

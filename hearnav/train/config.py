@@ -5,14 +5,12 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Literal
 
-import yaml
 from pydantic import (BaseModel, ConfigDict, Field, StrictBool, StrictFloat, StrictInt, StrictStr, ValidationError,
                       field_validator, model_validator)
 
 from hearnav import bundled
-from hearnav.env.config import EnvConfig, make_config
+from hearnav.env.config import EnvConfig, make_config, read_mapping
 from hearnav.errors import ConfigError, did_you_mean, short_repr
-from hearnav.yamlfile import YamlRefused, load_yaml_text
 
 #: Folder of the bundled training configurations.
 CONFIG_DIR = bundled.folder("configs") / "train"
@@ -150,22 +148,7 @@ def make_train_config(data: dict | None = None, **overrides) -> TrainConfig:
 
 def load_train_config(config: str | Path, **overrides) -> TrainConfig:
     """A TrainConfig from a YAML path or bundled name (configs/train/NAME.yaml); ConfigError names the file."""
-    path = Path(config)
-    if not path.suffix and not path.exists():
-        path = CONFIG_DIR / f"{config}.yaml"
-    if not path.is_file():
-        names = sorted(p.stem for p in CONFIG_DIR.glob("*.yaml"))
-        raise ConfigError(f"training config {str(config)!r} not found (expected a YAML file or one of "
-                          f"{', '.join(names)}); {did_you_mean(str(config), names)}")
-    try:
-        data = load_yaml_text(path.read_text(encoding="utf-8"))
-    except YamlRefused as exc:
-        raise ConfigError(f"{path}: refused: {exc}") from None
-    except yaml.YAMLError as exc:
-        raise ConfigError(f"{path}: not valid YAML (expected a mapping of options, got "
-                          f"{str(exc).splitlines()[0]})") from None
-    if data is not None and not isinstance(data, dict):
-        raise ConfigError(f"{path}: expected a mapping of options, got {type(data).__name__}")
+    path, data = read_mapping(config, CONFIG_DIR, "training config")
     try:
         return make_train_config(data, **overrides)
     except ConfigError as exc:
