@@ -26,35 +26,16 @@ def register(sub) -> None:
                    help="fail an episode whose policy takes longer than this, or whose worker process dies, and "
                         f"go on (default {EPISODE_TIMEOUT_S:g})")
     p.add_argument("--save-audio", type=int, default=0, metavar="K",
-                   help="write WAVs for the first K episodes of each policy (peak -1 dBFS; start playback quietly)")
+                   help="write WAVs for the first K episodes of each policy (-23 LUFS, true peak at most -1 dBTP; start "
+                        "playback quietly)")
     p.set_defaults(run=run)
-
-
-class _Bars:
-    """Progress of a benchmark run as tqdm bars on stderr, one per stage."""
-
-    def __init__(self):
-        self.bar = None
-
-    def __call__(self, stage: str, done: int, total: int) -> None:
-        from tqdm import tqdm
-
-        if done == 0:
-            self.close()
-            self.bar = tqdm(total=total, desc=stage, unit="ep", file=sys.stderr, disable=None)
-        else:
-            self.bar.update(done - self.bar.n)
-
-    def close(self) -> None:
-        if self.bar is not None:
-            self.bar.close()
-            self.bar = None
 
 
 def run(args) -> int:
     from hearnav.bench import run as run_bench
     from hearnav.bench.session import worker_count
     from hearnav.bench.suites import load_suite
+    from hearnav.progress import Feedback
     from hearnav.report import format_table
 
     output_folder(args.out)
@@ -63,13 +44,12 @@ def run(args) -> int:
     if workers != args.workers:
         print(f"hearnav: note: --workers {args.workers} capped at {workers} (at most one per episode, "
               f"{suite.episodes}, and one per CPU, {os.cpu_count()})", file=sys.stderr)
-    bars = _Bars()
-    try:
+    with Feedback() as feedback:  # tqdm bars on a terminal, a line every few seconds in a log
         summary = run_bench(suite, args.policy, args.out, workers=workers, reference=args.reference,
-                            save_audio=args.save_audio, progress=bars, episode_timeout=args.episode_timeout)
-    finally:
-        bars.close()
+                            save_audio=args.save_audio, progress=feedback, episode_timeout=args.episode_timeout)
     print(format_table(summary))
+    print(f"hearnav: results in {args.out} (episodes.jsonl, summary.json{', audio/' if args.save_audio else ''})",
+          file=sys.stderr)
     failed = summary.failures
     if failed:
         print(f"{failed} episode(s) failed; see the 'error' field in {args.out / 'episodes.jsonl'}", file=sys.stderr)

@@ -41,7 +41,7 @@ def run(args) -> int:
     from hearnav.bench.suites import load_suite
     from hearnav.cli.report_cmd import make_report
     from hearnav.errors import ConfigError
-    from hearnav.plots.progress import Feedback
+    from hearnav.progress import Feedback
     from hearnav.plots.rundata import load_run
     from hearnav.report import format_table
 

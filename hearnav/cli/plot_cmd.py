@@ -67,7 +67,7 @@ def _where(paths: list[Path], folder: Path) -> int:
 
 
 def run_trajectories(args) -> int:
-    from hearnav.plots.progress import Feedback
+    from hearnav.progress import Feedback
     from hearnav.plots.rundata import load_run
     from hearnav.plots.runplots import plot_trajectories
 
@@ -104,7 +104,7 @@ def run_score_map(args) -> int:
     from hearnav.plots.arrangement import arrange, spot_indices
     from hearnav.scene.library import load_named
     from hearnav.plots.episodes import sources_of, standoff_m
-    from hearnav.plots.progress import Feedback
+    from hearnav.progress import Feedback
     from hearnav.plots.scoremap import score_map
     from hearnav.plots.trajectories import arrangement_figure
 

@@ -87,7 +87,7 @@ def _entry(png: Path):
 
 
 def run(args) -> int:
-    from hearnav.plots.progress import Feedback
+    from hearnav.progress import Feedback
     from hearnav.plots.rundata import load_run
 
     run_folder = load_run(args.run_dir)  # a bad RUN_DIR is one line before anything is written

@@ -3,7 +3,7 @@
 import io
 import time
 
-from hearnav.plots.progress import Feedback
+from hearnav.progress import Feedback
 
 
 def test_lines_at_start_and_end_of_each_stage():
