@@ -30,7 +30,7 @@ CAUTION = (f"Start playback quietly. Each file is normalised to {LOUDNESS_LUFS:g
            f"true-peak ceiling of {TRUE_PEAK_DBTP:g} dBTP, but simulated rooms can still be loud.")
 
 CSS = """
-body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,sans-serif;margin:0 auto;max-width:1180px;padding:1.2em 2em;
+body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,sans-serif;margin:0 auto;max-width:1400px;padding:1.2em 2em;
 color:#1b1b1b;background:#fff;line-height:1.45}
 h1{font-size:1.6em;margin-bottom:.2em}h2{font-size:1.25em;border-bottom:2px solid #0072B2;padding-bottom:.2em;margin-top:1.8em}
 h3{font-size:1.05em;margin:1.2em 0 .4em}
@@ -76,7 +76,7 @@ def category_cells(rows: Sequence[dict]) -> tuple[list[str], list[list[str]]]:
         if r.get("status") == "ok" and r.get("gain_db") is not None:
             groups.setdefault((str(r["policy"]), str(r.get("target_category") or "(not recorded)")), []).append(
                 float(r["gain_db"]))
-    body = [[p, c, str(len(v)), f"{sum(v) / len(v):.2f}"] for (p, c), v in groups.items()]
+    body = [[p, c, str(len(v)), f"{sum(v) / len(v):.2f}"] for (p, c), v in sorted(groups.items())]
     return ["policy", "target category", "n", "mean gain dB"], body
 
 
