@@ -15,9 +15,10 @@ INTERVAL_S = 5.0
 class Feedback:
     """``feedback(stage, done, total)`` as the benchmark's progress callback; a context manager.
 
-    On a terminal each stage gets a tqdm bar. Otherwise a line ``hearnav: STAGE: done/total (N s)`` is printed when
-    a stage starts and ends and, from a background thread, every ``interval`` seconds while it runs, so a log
-    never goes quiet for long.
+    On a terminal each stage gets a tqdm bar. Otherwise, from a background thread, a line ``hearnav: STAGE:
+    done/total (N s)`` every ``interval`` seconds while a stage runs, and one when a stage that was reported on
+    ends: a log never goes quiet for long, and work shorter than ``interval`` prints nothing (so a command's
+    error stays its first line).
     """
 
     def __init__(self, stream: TextIO | None = None, interval: float = INTERVAL_S, tty: bool | None = None):
@@ -32,15 +33,18 @@ class Feedback:
         self._stop = threading.Event()
         self._thread: threading.Thread | None = None
         self._last = 0.0
+        self._stage_started = 0.0
+        self._printed = False
 
     def __call__(self, stage: str, done: int, total: int) -> None:
         if self.tty:
             self._bar(stage, done, total)
             return
         with self._lock:
-            new = stage != self.stage
-            self.stage, self.done, self.total = stage, done, total
-            if new or done >= total:
+            if stage != self.stage:
+                self.stage, self._stage_started, self._printed = stage, time.monotonic(), False
+            self.done, self.total = done, total
+            if done >= total and self._printed:  # a stage that was reported on says when it ends
                 self._line()
         if self._thread is None:
             self._thread = threading.Thread(target=self._beat, daemon=True)
@@ -69,11 +73,13 @@ class Feedback:
         elapsed = time.monotonic() - self.started
         print(f"hearnav: {self.stage}: {self.done}/{self.total} ({elapsed:.0f} s)", file=self.stream, flush=True)
         self._last = time.monotonic()
+        self._printed = True
 
     def _beat(self) -> None:
         while not self._stop.wait(self.interval / 5):
             with self._lock:
-                if self.stage is not None and time.monotonic() - self._last >= self.interval:
+                quiet_since = max(self._last, self._stage_started)
+                if self.stage is not None and self.done < self.total and time.monotonic() - quiet_since >= self.interval:
                     self._line()
 
     def close_bar(self) -> None:

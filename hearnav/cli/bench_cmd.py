@@ -48,9 +48,9 @@ def run(args) -> int:
         summary = run_bench(suite, args.policy, args.out, workers=workers, reference=args.reference,
                             save_audio=args.save_audio, progress=feedback, episode_timeout=args.episode_timeout)
     print(format_table(summary))
-    print(f"hearnav: results in {args.out} (episodes.jsonl, summary.json{', audio/' if args.save_audio else ''})",
-          file=sys.stderr)
     failed = summary.failures
     if failed:
         print(f"{failed} episode(s) failed; see the 'error' field in {args.out / 'episodes.jsonl'}", file=sys.stderr)
+    print(f"hearnav: results in {args.out} (episodes.jsonl, summary.json{', audio/' if args.save_audio else ''})",
+          file=sys.stderr)
     return 1 if failed else 0

@@ -78,7 +78,8 @@ def test_a_failing_policy_fails_only_its_episodes(attack, workers, clean, tmp_pa
     code = _bench(_write_suite(tmp_path), out, bad, "still", workers=workers)
     err = capsys.readouterr().err.splitlines()
     assert code == 1
-    assert err == [f"2 episode(s) failed; see the 'error' field in {out / 'episodes.jsonl'}"]
+    assert err == [f"2 episode(s) failed; see the 'error' field in {out / 'episodes.jsonl'}",
+                   f"hearnav: results in {out} (episodes.jsonl, summary.json)"]
     rows = read_rows(out / "episodes.jsonl")
     failed = [r for r in rows if r["policy"] == bad]
     assert sorted(r["episode_index"] for r in failed) == [0, 1]
@@ -99,7 +100,7 @@ def test_failed_rows_are_kept_on_resume(tmp_path, capsys):
     before = (out / "episodes.jsonl").read_bytes()
     assert _bench(suite, out, bad, "still") == 1
     assert (out / "episodes.jsonl").read_bytes() == before
-    assert capsys.readouterr().err.splitlines()[-1].startswith("2 episode(s) failed; ")
+    assert capsys.readouterr().err.splitlines()[-2].startswith("2 episode(s) failed; ")
 
 
 @pytest.mark.parametrize("value, shown", [("0", "0.0"), ("-1", "-1.0"), ("nan", "nan"), ("inf", "inf")])
