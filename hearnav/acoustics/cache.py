@@ -160,6 +160,7 @@ def load_or_build(scene: Scene, settings: AcousticSettings, grid: Grid | None = 
     """
     grid = grid or build_grid(scene, settings.n_headings)
     path, key = cache_path(scene, settings), cache_key(scene, settings)
+    first_use = not path.exists()  # a damaged file is reported as such below, not as a first use
     if path.exists():
         try:
             return load(path, key)
@@ -172,6 +173,32 @@ def load_or_build(scene: Scene, settings: AcousticSettings, grid: Grid | None = 
                 return load(path, key)
             except CacheError:
                 pass
-        responses = build_responses(scene, grid, settings, progress)
+        if progress is None and report is not None and first_use:
+            responses = _build_with_feedback(scene, grid, settings, report)
+        else:
+            responses = build_responses(scene, grid, settings, progress)
         save(responses, path, key)
     return responses
+
+
+#: Seconds per (cell, heading, spot) of a build on one core: maple-flat's 4040 in 16.4 s (README, Performance).
+BUILD_S_PER_POSE_SPOT = 16.4 / 4040
+
+
+def _build_with_feedback(scene: Scene, grid: Grid, settings: AcousticSettings,
+                         report: Callable[[str], None]) -> Responses:
+    """:func:`build_responses`, saying what is built and how long it should take, with a bar on a terminal and a
+    line every few seconds elsewhere (:class:`hearnav.progress.Feedback`)."""
+    from hearnav.progress import Feedback
+
+    estimate = BUILD_S_PER_POSE_SPOT * grid.n_cells * settings.n_headings * len(scene.spots)
+    report(f"building responses for {scene.name} (first use, about {max(estimate, 1):.0f} s; cached for later runs)")
+    stage, done = f"responses for {scene.name} (cells)", [0]
+    with Feedback() as feedback:
+        feedback(stage, 0, grid.n_cells)
+
+        def progress(n: int) -> None:
+            done[0] += n
+            feedback(stage, done[0], grid.n_cells)
+
+        return build_responses(scene, grid, settings, progress)

@@ -296,3 +296,15 @@ def test_equal_seeds_give_equal_results_and_another_seed_changes_only_the_tail(s
     assert not np.array_equal(other.tail, one.tail)
     differs = np.any(other.tail != one.tail, axis=-1)  # (C, S, 2)
     assert differs.all()
+
+
+def test_a_first_build_says_what_it_builds_and_a_cached_load_says_nothing(tmp_path, monkeypatch, scene, fast_settings):
+    # Feedback on long work: the first use of a scene names it and estimates the time; later loads are silent.
+    monkeypatch.setenv("HEARNAV_CACHE", str(tmp_path))
+    said = []
+    cache.load_or_build(scene, fast_settings, report=said.append)
+    assert len(said) == 1
+    assert said[0].startswith(f"building responses for {scene.name} (first use, about ") and \
+        said[0].endswith(" s; cached for later runs)")
+    cache.load_or_build(scene, fast_settings, report=said.append)
+    assert len(said) == 1
