@@ -70,7 +70,8 @@ class EpisodeResult:
     ``*_full_*`` against its full reverberant image (separation only); ``*_input_*`` of the unprocessed
     mixture. ``gain_db`` is the mean paired gain of the end pose over the start pose on the
     ``eval_windows_scored`` scored windows that follow the episode; ``mean_gain_db`` the mean over the episode's
-    scored steps of S(pose_t, w_t) - S(pose_0, w_t) (how soon the gain came); ``oracle_gain_db`` the oracle
+    scored steps of S(pose_t, w_t) - S(pose_0, w_t) (how soon the gain came), ``step_gains_db`` that difference at
+    each step (None where the window was not scored); ``oracle_gain_db`` the oracle
     bound's gain (:mod:`hearnav.bench.oracle`); ``normalised_gain`` is gain_db / oracle_gain_db, ``None`` when the
     bound is unknown or not above 0. ``start_*`` and ``final_*`` scores are those of the first and last windows
     heard; ``quiet_windows`` counts the episode's windows that were not scored (:mod:`hearnav.env.gating`).
@@ -98,6 +99,7 @@ class EpisodeResult:
     best_si_sdr_db: float | None = None
     gain_db: float | None = None
     mean_gain_db: float | None = None
+    step_gains_db: list | None = None
     eval_windows_scored: int | None = None
     quiet_windows: int | None = None
     episode_return: float | None = None

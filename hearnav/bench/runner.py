@@ -107,8 +107,7 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task, rewards: list | 
                 result.collided_steps.append(steps)
             path += math.dist(before, (info["pose"]["x"], info["pose"]["y"]))
             best = max(best, info["si_sdr_db"])
-            if info["target_active"]:
-                along.append(_from_start(env, info, start_pose))
+            along.append(_from_start(env, info, start_pose) if info["target_active"] else None)
             if audio is not None:
                 audio.append(env.unwrapped.privileged.last_audio())
     except BaseException as exc:  # the policy's fault (workers ignore SIGINT): record it, never end the run
@@ -118,7 +117,9 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task, rewards: list | 
     end_pose = (info["pose"]["cell"], info["pose"]["heading"])
     gain, result.eval_windows_scored = end_gain(env, end_pose, start_pose)
     result.final_si_sdr_db, result.best_si_sdr_db, result.gain_db, result.episode_return = final, best, gain, ret
-    result.mean_gain_db = float(np.mean(along)) if along else 0.0
+    scored = [g for g in along if g is not None]
+    result.mean_gain_db = float(np.mean(scored)) if scored else 0.0
+    result.step_gains_db = along
     result.quiet_windows = info["quiet_windows"]
     result.normalised_gain = (gain / task.oracle) if task.oracle is not None and task.oracle > 1e-9 else None
     result.path_length_m, result.steps, result.collisions = path, steps, collisions

@@ -38,7 +38,7 @@ def test_paired_differences_match_on_seeds_by_scene():
     assert ax.get_ylabel() == "gain minus still's gain, same episode (dB)" and ax.get_xlabel() == "scene"
 
 
-def test_timing_figure_shows_median_and_quartiles():
+def test_rows_without_per_step_gains_get_the_two_point_view():
     fig = gains.timing_figure(RUN)
     ax = fig.axes[0]
     assert ax.get_ylabel() == "paired gain over the start pose (dB)"
@@ -52,3 +52,17 @@ def test_timing_figure_shows_median_and_quartiles():
 
 def test_one_bound_per_episode():
     assert sorted(r["episode_seed"] for r in gains.bound_rows(RUN)) == [0, 1, 2, 3]
+
+
+def test_gain_against_step_is_the_median_with_an_interquartile_band():
+    # Four episodes of a walker whose per-step gains are k * step (k = 0..3) and one unscored step (None):
+    # numpy's linear percentiles of [0, 1, 2, 3] * t give the median 1.5 t and quartiles 0.75 t and 2.25 t.
+    rows = [{**_row("walker", k, 3.0 * k), "step_gains_db": [k * 1.0, None, k * 3.0]} for k in range(4)]
+    fig = gains.timing_figure(Run(folder=None, rows=rows, manifest={}, summary={"reference": "walker"}))
+    ax = fig.axes[0]
+    assert ax.get_xlabel() == "step" and ax.get_ylabel() == "gain over the start pose, same window (dB)"
+    line = next(line for line in ax.get_lines() if line.get_label() == "walker")
+    x, y = line.get_data()
+    assert list(x) == [1, 2, 3] and y[0] == pytest.approx(1.5) and np.isnan(y[1]) and y[2] == pytest.approx(4.5)
+    band = np.concatenate([path.vertices for path in ax.collections[0].get_paths()])
+    assert band[:, 1].min() == pytest.approx(0.75) and band[:, 1].max() == pytest.approx(2.25 * 3)
