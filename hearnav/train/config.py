@@ -36,9 +36,9 @@ class PPOOptions(BaseModel):
 
 
 class NetOptions(BaseModel):
-    """The policy network: each observation key through the extractor ("flat": flattened; "cnn": 3 x 3
-    convolutions with ``filters`` on every (C, H, W) key, flattening the rest), concatenated, then an MLP for the
-    policy and one for the value (the extractor is shared)."""
+    """The policy network: each observation key scaled from its bounds to [-1, 1] (``scale_inputs``), through the
+    extractor ("flat": flattened; "cnn": 3 x 3 convolutions with ``filters`` on every (C, H, W) key, flattening the
+    rest), concatenated, then an MLP for the policy and one for the value (the extractor is shared)."""
 
     model_config = _STRICT
 
@@ -46,6 +46,8 @@ class NetOptions(BaseModel):
     filters: list[StrictInt] = Field(default_factory=lambda: [8, 8], min_length=1, max_length=4,
                                      description="channels of each 3 x 3 convolution of the cnn extractor")
 
+    scale_inputs: StrictBool = Field(default=True, description="map each observation key from its Box bounds to "
+                                     "[-1, 1] before the network (band levels span -120 to +40 dB)")
     hidden: list[StrictInt] = Field(default_factory=lambda: [64, 64], max_length=8,
                                     description="units of each hidden layer (shared sizes, separate networks)")
     activation: Literal["tanh", "relu"] = "tanh"

@@ -44,7 +44,7 @@ def _conv_arrays(key: str, module: Any) -> dict[str, np.ndarray]:
 
 def network_arrays(model: Any) -> dict[str, np.ndarray]:
     """The arrays of the .npz for an SB3 model with a MultiInputPolicy whose extractor flattens each key or runs
-    hearnav's cnn extractor on it."""
+    hearnav's cnn extractor on it (with hearnav's extractor, each key's input scaling too)."""
     from torch import nn
 
     policy = model.policy
@@ -52,13 +52,15 @@ def network_arrays(model: Any) -> dict[str, np.ndarray]:
     keys = list(getattr(extractor, "extractors", {}).keys())
     if not keys or any(not isinstance(extractor.extractors[k], (nn.Flatten, nn.Sequential)) for k in keys):
         raise PolicyError(f"the policy's feature extractor is {type(extractor).__name__} (expected "
-                          f"MultiInputPolicy's CombinedExtractor or hearnav's ConvExtractor); only such networks "
+                          f"MultiInputPolicy's CombinedExtractor or hearnav's ScaledExtractor); only such networks "
                           f"export")
     hidden, activation = _linear_chain(policy.mlp_extractor.policy_net)
     out: dict[str, np.ndarray] = {"format": np.array(FORMAT), "keys": np.array(keys),
                                   "activation": np.array(activation or "relu")}
     for k in keys:
         out[f"shape/{k}"] = np.array(policy.observation_space[k].shape, dtype=np.int64)
+        if hasattr(extractor, "scale_of"):
+            out[f"gain/{k}"], out[f"offset/{k}"] = extractor.scale_of(k)
         if isinstance(extractor.extractors[k], nn.Sequential):
             out.update(_conv_arrays(k, extractor.extractors[k]))
     for k, layer in enumerate(hidden):

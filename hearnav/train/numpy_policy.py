@@ -5,12 +5,14 @@ The file (written by :func:`hearnav.train.export.export_npz`) holds numpy arrays
 
 - ``format``: the format version (:data:`FORMAT`), ``keys``: the observation keys in the order they are
   concatenated, ``shape/<key>``: each key's shape, ``activation``: "tanh" or "relu";
+- ``gain/<key>`` and ``offset/<key>`` (each of the key's shape; format 2): the key's input scaling,
+  ``x * gain + offset`` (:func:`hearnav.train.extractor.box_scale`); a format 1 file has none (unscaled);
 - ``conv/<key>/<j>/weight`` (out x in x 3 x 3) and ``conv/<key>/<j>/bias`` for the convolutions j = 0, 1, ...
   of a (C, H, W) key run through the cnn extractor (:mod:`hearnav.train.extractor`; none for a flattened key);
 - ``hidden/<k>/weight`` (out x in) and ``hidden/<k>/bias`` for each hidden layer k = 0, 1, ...;
 - ``action/weight`` and ``action/bias``: the layer that gives one logit per action.
 
-The forward pass is stable-baselines3's MultiInputPolicy: each key through its convolutions (3 x 3
+The forward pass is stable-baselines3's MultiInputPolicy: each key scaled, then through its convolutions (3 x 3
 cross-correlation, stride 1, zero padding 1, each followed by ReLU, as ``torch.nn.Conv2d``), flattened (C order)
 and concatenated in ``keys`` order, the hidden layers each followed by the activation, then the action
 layer; the deterministic action is the argmax of the logits (the mode of the categorical distribution).
@@ -27,8 +29,9 @@ import numpy as np
 
 from hearnav.errors import PolicyError, shown_path, short_repr
 
-#: Version of the .npz layout above.
-FORMAT = 1
+#: Version of the .npz layout above (2 added the input scaling); :data:`READABLE` lists the versions read.
+FORMAT = 2
+READABLE = (1, 2)
 _ACTIVATIONS = {"tanh": np.tanh, "relu": lambda x: np.maximum(x, np.float32(0.0))}
 Layer = tuple[np.ndarray, np.ndarray]
 
@@ -57,12 +60,18 @@ class NumpyNetwork:
     """The weights of one exported policy network and its forward pass."""
 
     def __init__(self, keys: list[str], shapes: dict[str, tuple[int, ...]], activation: str,
-                 hidden: list[Layer], action: Layer, convs: dict[str, list[Layer]] | None = None):
+                 hidden: list[Layer], action: Layer, convs: dict[str, list[Layer]] | None = None,
+                 scales: dict[str, Layer] | None = None):
         if activation not in _ACTIVATIONS:
             raise PolicyError(f"activation {activation!r} is not supported (expected one of "
                               f"{', '.join(_ACTIVATIONS)}); export the network again")
         self.keys, self.shapes, self.activation = keys, shapes, activation
         self.hidden, self.action, self.convs = hidden, action, {k: v for k, v in (convs or {}).items() if v}
+        self.scales = dict(scales or {})
+        for k, (gain, offset) in self.scales.items():
+            if k not in shapes or gain.shape != shapes[k] or offset.shape != shapes[k]:
+                raise PolicyError(f"input scaling of shapes {gain.shape} and {offset.shape} for key {k!r} (expected "
+                                  f"the key's shape {shapes.get(k)}); export the network again")
         width = 0
         for k in keys:
             channels = shapes[k][0] if k in self.convs and len(shapes[k]) == 3 else None
@@ -91,9 +100,10 @@ class NumpyNetwork:
             raise PolicyError(f"policy weights {shown_path(path)} cannot be read as plain numpy arrays "
                               f"({type(exc).__name__}: {short_repr(str(exc))}); export the network again") from None
         try:
-            if int(arrays["format"]) != FORMAT:
+            if int(arrays["format"]) not in READABLE:
                 raise PolicyError(f"policy weights {shown_path(path)} have format {int(arrays['format'])} "
-                                  f"(expected {FORMAT}); export the network again with this hearnav")
+                                  f"(expected one of {', '.join(map(str, READABLE))}); export the network again "
+                                  f"with this hearnav")
             keys = [str(k) for k in arrays["keys"]]
             shapes = {k: tuple(int(n) for n in arrays[f"shape/{k}"]) for k in keys}
             count = sum(1 for name in arrays if name.startswith("hidden/") and name.endswith("/weight"))
@@ -102,10 +112,12 @@ class NumpyNetwork:
                 sum(1 for n in arrays if n.startswith(f"conv/{key}/") and n.endswith("/weight")))] for key in keys}
             action = _layer(arrays, "action")
             activation = str(arrays["activation"])
+            scales = {k: (arrays[f"gain/{k}"].astype(np.float32), arrays[f"offset/{k}"].astype(np.float32))
+                      for k in keys if int(arrays["format"]) >= 2}
         except KeyError as exc:
             raise PolicyError(f"policy weights {shown_path(path)} lack the array {exc.args[0]!r} (expected the "
                               f"layout of hearnav.train.numpy_policy, format {FORMAT}); export the network again") from None
-        return cls(keys, shapes, activation, hidden, action, convs)
+        return cls(keys, shapes, activation, hidden, action, convs, scales)
 
     def check(self, observation: dict) -> None:
         """PolicyError unless ``observation`` has the keys and shapes the network was trained on."""
@@ -119,6 +131,8 @@ class NumpyNetwork:
         parts = []
         for k in self.keys:
             x = np.asarray(observation[k], np.float32)
+            if k in self.scales:
+                x = x * self.scales[k][0] + self.scales[k][1]
             for w, b in self.convs.get(k, []):
                 x = conv3x3(x, w, b)
             parts.append(x.reshape(-1))

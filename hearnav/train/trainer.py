@@ -62,10 +62,11 @@ def new_model(config: TrainConfig, venv: Any, seed: int) -> Any:
     hidden = list(config.net.hidden)
     kwargs: dict[str, Any] = dict(net_arch=dict(pi=hidden, vf=hidden),
                                   activation_fn={"tanh": nn.Tanh, "relu": nn.ReLU}[config.net.activation])
-    if config.net.extractor == "cnn":
-        from hearnav.train.extractor import ConvExtractor
+    from hearnav.train.extractor import ScaledExtractor
 
-        kwargs.update(features_extractor_class=ConvExtractor, features_extractor_kwargs={"filters": config.net.filters})
+    filters = list(config.net.filters) if config.net.extractor == "cnn" else []
+    kwargs.update(features_extractor_class=ScaledExtractor,
+                  features_extractor_kwargs={"filters": filters, "scale": config.net.scale_inputs})
     return PPO("MultiInputPolicy", venv, policy_kwargs=kwargs, device="cpu", seed=seed, verbose=0,
                **config.ppo.model_dump())
 

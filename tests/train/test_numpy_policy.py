@@ -59,8 +59,29 @@ def test_missing_array_and_wrong_format_are_one_line(tmp_path):
     np.savez(path, **data)
     with pytest.raises(PolicyError, match=r"lack the array 'action/bias'"):
         NumpyNetwork.load(path)
-    with pytest.raises(PolicyError, match=r"have format 2 \(expected 1\)"):
+    with pytest.raises(PolicyError, match=r"have format 3 \(expected one of 1, 2\)"):
+        NumpyNetwork.load(_tiny_network(tmp_path, format=np.array(3)))
+    with pytest.raises(PolicyError, match=r"lack the array 'gain/x'"):
         NumpyNetwork.load(_tiny_network(tmp_path, format=np.array(2)))
+
+
+def test_input_scaling_by_hand(tmp_path):
+    # Format 2 scales each key before the first layer: x * gain + offset, here a Box [0, 4] x [-2, 2] mapped to
+    # [-1, 1] (the affine map of the bounds, worked by hand).
+    from gymnasium import spaces
+
+    from hearnav.train.extractor import box_scale
+
+    gain, offset = box_scale(spaces.Box(np.array([0.0, -2.0], np.float32), np.array([4.0, 2.0], np.float32)))
+    np.testing.assert_allclose(gain, [0.5, 0.5])
+    np.testing.assert_allclose(offset, [-1.0, 0.0])
+    net = NumpyNetwork.load(_tiny_network(tmp_path, format=np.array(2), **{"gain/x": gain, "offset/x": offset}))
+    x = {"x": np.array([3.0, 1.0], np.float32)}  # scaled: [0.5, 0.5]
+    expected = np.array([np.tanh(0.5), np.tanh(-0.5), -np.tanh(0.5), np.tanh(0.5)], np.float32)
+    np.testing.assert_allclose(net.logits(x), expected, rtol=1e-6)
+    with pytest.raises(PolicyError, match=r"input scaling of shapes \(3,\) and \(2,\) for key 'x'"):
+        NumpyNetwork.load(_tiny_network(tmp_path, format=np.array(2), **{"gain/x": np.ones(3, np.float32),
+                                                                         "offset/x": offset}))
 
 
 def test_observation_of_another_environment_is_refused(tmp_path):
