@@ -1,12 +1,13 @@
 """Throughput and memory of the training environments: 1, 2 and 4 workers, as `hearnav train` runs them.
 
 For each worker count it builds the trainer's own VecEnv (hearnav.train.trainer.make_vec_env: DummyVecEnv for
-one worker, SubprocVecEnv for more) on the ppo-tiny config's scenes, steps it with seeded random actions
+one worker, hearnav.train.vector.GroupVecEnv for more, each worker stepping the config's envs_per_worker
+environments, or --envs-per-worker's) on the config's scenes, steps it with seeded random actions
 (episodes end and reset inside the VecEnv, so resets are counted), and prints steps per second over all workers
 together, its ratio to one worker's, and the memory each worker process and the whole tree hold, read from
 /proc/PID/smaps_rollup after the run: Pss (a page shared by n processes counts 1/n, so the tree's sum counts
 shared pages once) and private memory (pages no other process maps). Needs the train extra. Linux only.
-Usage: python benchmarks/train_throughput.py [--config ppo-tiny] [--workers 1 2 4] [--steps 3000]
+Usage: python benchmarks/train_throughput.py [--config ppo-tiny] [--workers 1 2 4] [--envs-per-worker M] [--steps 3000]
 """
 
 from __future__ import annotations
@@ -40,23 +41,25 @@ def children(pid: int) -> list[int]:
     return out
 
 
-def measure(config_name: str, workers: int, steps: int) -> tuple[float, list[dict], int]:
+def measure(config_name: str, workers: int, steps: int, per_worker: int | None) -> tuple[float, list[dict], int]:
     """(steps/s with resets over all workers, each worker's rollup, the tree's Pss in bytes)."""
     from hearnav.train.config import load_train_config
     from hearnav.train.trainer import make_vec_env
 
-    config = load_train_config(config_name).model_copy(update={"workers": workers})
+    config = load_train_config(config_name)
+    config = config.model_copy(update={"workers": workers, "envs_per_worker": per_worker or config.envs_per_worker})
+    n = config.n_envs
     venv = make_vec_env(config)
     rng = np.random.default_rng(np.random.SeedSequence(2026))
     venv.seed(0)
     venv.reset()
     for _ in range(64):  # warm-up: scenes opened, clips mapped
-        venv.step(rng.integers(4, size=workers))
+        venv.step(rng.integers(4, size=n))
     t0 = time.perf_counter()
     done = 0
     while done < steps:
-        venv.step(rng.integers(4, size=workers))
-        done += workers
+        venv.step(rng.integers(4, size=n))
+        done += n
     rate = done / (time.perf_counter() - t0)
     inner = getattr(venv, "venv", venv)  # under VecNormalize
     pids = [p.pid for p in inner.processes] if workers > 1 else [os.getpid()]
@@ -70,15 +73,17 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--config", default="ppo-tiny")
     parser.add_argument("--workers", type=int, nargs="+", default=[1, 2, 4])
+    parser.add_argument("--envs-per-worker", type=int, default=None, help="default: the config's")
     parser.add_argument("--steps", type=int, default=3000)
     args = parser.parse_args()
     mb = 2**20
     base = None
-    print(f"config {args.config}, {args.steps} random steps after a warm-up, resets included")
+    print(f"config {args.config}, {args.steps} random steps after a warm-up, resets included, "
+          f"{args.envs_per_worker or 'the config'!s} environments per worker")
     print("| workers | steps/s (all workers) | vs 1 worker | Pss per worker MB | private per worker MB | tree Pss MB |")
     print("|---|---|---|---|---|---|")
     for n in args.workers:
-        rate, rolls, tree = measure(args.config, n, args.steps)
+        rate, rolls, tree = measure(args.config, n, args.steps, args.envs_per_worker)
         base = rate if n == 1 else base
         ratio = f"{rate / base:.2f}x" if base else "n/a"
         pss = [r["Pss"] / mb for r in rolls]

@@ -71,6 +71,19 @@ class EvalOptions(BaseModel):
     every_steps: StrictInt = Field(default=8192, ge=1, description="environment steps between evaluations")
 
 
+class WarmStartOptions(BaseModel):
+    """Behaviour cloning of a teacher policy before PPO (:mod:`hearnav.train.warmstart`)."""
+
+    model_config = _STRICT
+
+    policy: StrictStr = Field(default="follow-bearing", min_length=1,
+                              description="the teacher: a registered policy name or reference")
+    episodes: StrictInt = Field(default=300, ge=1, le=100_000, description="teacher episodes on the training scenes")
+    epochs: StrictInt = Field(default=10, ge=1, le=1000, description="passes over the teacher's steps")
+    batch_size: StrictInt = Field(default=256, ge=2, le=1_000_000)
+    learning_rate: StrictFloat = Field(default=1e-3, gt=0.0, le=1.0)
+
+
 class TrainConfig(BaseModel):
     """Everything ``hearnav train`` needs besides the output folder."""
 
@@ -82,12 +95,24 @@ class TrainConfig(BaseModel):
     total_steps: StrictInt = Field(default=50_000, ge=1, le=10**10, description="environment steps in all")
     seed: StrictInt = Field(default=0, ge=0, le=2**32 - 1)
     workers: StrictInt = Field(default=1, ge=1, le=256, description="environment processes")
+    envs_per_worker: StrictInt = Field(default=1, ge=1, le=64,
+                                       description="environments each process steps per message (hearnav.train."
+                                                   "vector); PPO runs workers x envs_per_worker environments")
+    reward: Literal["paired", "end-score"] = Field(
+        default="paired", description="paired: the environment's own reward; end-score: the change of the pose's "
+                                      "mean score on the evaluation windows, whose return is the episode's gain_db "
+                                      "(hearnav.train.reward)")
+    reward_windows: StrictInt | None = Field(default=None, ge=1, le=64,
+                                             description="evaluation windows of end-score (None: the environment's "
+                                                         "eval_windows, as the benchmark)")
     normalize_reward: StrictBool = Field(default=False, description="scale rewards with VecNormalize (not the "
                                                                     "observations, so the policy needs no stats)")
     checkpoint_every: StrictInt = Field(default=8192, ge=1, description="environment steps between checkpoints")
     ppo: PPOOptions = Field(default_factory=PPOOptions)
     net: NetOptions = Field(default_factory=NetOptions)
     eval: EvalOptions = Field(default_factory=EvalOptions)
+    warm_start: WarmStartOptions | None = Field(default=None, description="clone a teacher policy before PPO "
+                                                                          "(None: start from a random network)")
 
     @field_validator("env")
     @classmethod
@@ -100,11 +125,16 @@ class TrainConfig(BaseModel):
 
     @model_validator(mode="after")
     def _batch(self) -> TrainConfig:
-        rollout = self.ppo.n_steps * self.workers
+        rollout = self.ppo.n_steps * self.n_envs
         if rollout % self.ppo.batch_size:
-            raise ValueError(f"ppo.batch_size ({self.ppo.batch_size}) must divide ppo.n_steps x workers "
-                             f"({rollout}) so no minibatch is truncated")
+            raise ValueError(f"ppo.batch_size ({self.ppo.batch_size}) must divide ppo.n_steps x workers x "
+                             f"envs_per_worker ({rollout}) so no minibatch is truncated")
         return self
+
+    @property
+    def n_envs(self) -> int:
+        """Environments PPO steps together: workers x envs_per_worker."""
+        return self.workers * self.envs_per_worker
 
     def env_config(self, scene_names: list[str] | tuple[str, ...]) -> EnvConfig:
         """The environment options with ``scenes`` set to ``scene_names``."""
@@ -121,7 +151,8 @@ class TrainConfig(BaseModel):
         return tuple(names)
 
 
-_MODELS: dict[str, type[BaseModel]] = {"ppo": PPOOptions, "net": NetOptions, "eval": EvalOptions}
+_MODELS: dict[str, type[BaseModel]] = {"ppo": PPOOptions, "net": NetOptions, "eval": EvalOptions,
+                                        "warm_start": WarmStartOptions}
 
 
 def _problem(err: dict) -> str:

@@ -23,8 +23,10 @@ from hearnav.train.config import TrainConfig
 from hearnav.train.runinfo import RESUMABLE, command_line, config_digest, read_json, versions, write_json
 
 
-def _env_factory(options: dict, rank: int) -> Callable[[], Any]:
-    """A function that builds worker ``rank``'s environment (in the worker process for SubprocVecEnv)."""
+def _env_factory(options: dict, rank: int, reward: str = "paired",
+                 reward_windows: int | None = None) -> Callable[[], Any]:
+    """A function that builds worker ``rank``'s environment (in the worker process for SubprocVecEnv), with the
+    trainer's reward (:mod:`hearnav.train.reward`)."""
 
     def make() -> Any:
         import torch
@@ -35,20 +37,31 @@ def _env_factory(options: dict, rank: int) -> Callable[[], Any]:
         torch.set_num_threads(1)
         if rank >= 0:  # a worker process: Ctrl-C is the trainer's to handle, the worker keeps serving
             signal.signal(signal.SIGINT, signal.SIG_IGN)
-        return Monitor(HearNavEnv(**options))
+        env = HearNavEnv(**options)
+        if reward == "end-score":
+            from hearnav.train.reward import EndScoreReward
+
+            env = EndScoreReward(env, reward_windows)
+        return Monitor(env)
 
     return make
 
 
 def make_vec_env(config: TrainConfig) -> Any:
-    """The training VecEnv: DummyVecEnv for one worker, SubprocVecEnv for more; VecNormalize on rewards if asked."""
-    from stable_baselines3.common.vec_env import DummyVecEnv, SubprocVecEnv, VecNormalize
+    """The training VecEnv of ``config.n_envs`` environments: in this process (DummyVecEnv) for one worker, else
+    :class:`hearnav.train.vector.GroupVecEnv` (each worker steps its ``envs_per_worker`` per message);
+    VecNormalize on rewards if asked."""
+    from stable_baselines3.common.vec_env import DummyVecEnv, VecNormalize
 
     options = config.env_config(config.scene_names()).model_dump()
     if config.workers == 1:
-        venv = DummyVecEnv([_env_factory(options, -1)])
+        venv = DummyVecEnv([_env_factory(options, -1, config.reward, config.reward_windows)
+                            for _ in range(config.n_envs)])
     else:
-        venv = SubprocVecEnv([_env_factory(options, k) for k in range(config.workers)])
+        from hearnav.train.vector import GroupVecEnv
+
+        venv = GroupVecEnv([_env_factory(options, k, config.reward, config.reward_windows)
+                            for k in range(config.n_envs)], config.workers)
     if config.normalize_reward:
         venv = VecNormalize(venv, norm_obs=False, norm_reward=True, gamma=config.ppo.gamma)
     return venv
@@ -69,6 +82,24 @@ def new_model(config: TrainConfig, venv: Any, seed: int) -> Any:
                   features_extractor_kwargs={"filters": filters, "scale": config.net.scale_inputs})
     return PPO("MultiInputPolicy", venv, policy_kwargs=kwargs, device="cpu", seed=seed, verbose=0,
                **config.ppo.model_dump())
+
+
+def warm_start(model: Any, config: TrainConfig, progress: bool) -> dict:
+    """Clone ``config.warm_start``'s teacher into ``model`` (:mod:`hearnav.train.warmstart`); what it did."""
+    from hearnav.train.warmstart import clone, collect
+
+    options = config.warm_start
+    if progress:
+        print(f"hearnav: warm start: {options.episodes} episodes of {options.policy}, then {options.epochs} epochs "
+              f"of behaviour cloning", flush=True)
+    t0 = time.time()
+    make = _env_factory(config.env_config(config.scene_names()).model_dump(), -1, config.reward, config.reward_windows)
+    result = clone(model, collect(config, make), config)
+    result["wall_time_s"] = round(time.time() - t0, 3)
+    if progress:
+        print(f"hearnav: warm start: {result['steps']} steps, agreement with the teacher {result['agreement']:.1%}, "
+              f"teacher's mean return {result['teacher_mean_return']:+.2f} ({result['wall_time_s']:.0f} s)", flush=True)
+    return result
 
 
 class Evaluator:
@@ -257,6 +288,7 @@ class Trainer:
             sessions.append(entry)
         info.update(command=entry["command"], wall_time_s=round(sum(s["wall_time_s"] for s in sessions), 3),
                     steps=entry["end_step"], best=self.state.get("best"), status=status,
+                    warm_start=self.state.get("warm_start"),
                     config=self.config.model_dump(mode="json"), versions=entry["versions"])
         write_json(self.folder.train_json, info)
 
@@ -290,6 +322,8 @@ class Trainer:
         if ckpt is None:
             self.model = new_model(cfg, self.venv, cfg.seed)
             self.state = {"best": None, "last_eval": None}
+            if cfg.warm_start is not None:
+                self.state["warm_start"] = warm_start(self.model, cfg, self.progress)
         else:
             self.state = ckpt
             if ckpt.get("vecnormalize"):

@@ -12,7 +12,7 @@ from hearnav.train.config import load_train_config, make_train_config
 def test_bundled_configs_are_valid():
     for name in ("ppo-tiny", "smoke"):
         config = load_train_config(name)
-        assert config.ppo.n_steps * config.workers % config.ppo.batch_size == 0
+        assert config.ppo.n_steps * config.n_envs % config.ppo.batch_size == 0
 
 
 def test_scenes_expand_splits_and_procedural_once_each():
@@ -22,15 +22,20 @@ def test_scenes_expand_splits_and_procedural_once_each():
 
 @pytest.mark.parametrize("data, error", [
     ({"totl_steps": 5}, "unknown option 'totl_steps' (expected one of scenes, env, total_steps, seed, workers, "
-                        "normalize_reward, checkpoint_every, ppo, net, eval); did you mean 'total_steps'?"),
+                        "envs_per_worker, reward, reward_windows, normalize_reward, checkpoint_every, ppo, net, eval, "
+                        "warm_start); did you mean 'total_steps'?"),
+    ({"warm_start": {"episods": 5}}, "unknown option 'warm_start.episods' (expected one of policy, episodes, epochs, "
+                                     "batch_size, learning_rate); did you mean 'episodes', 'epochs'?"),
+    ({"reward": "distance"}, "option 'reward': expected 'paired' or 'end-score' (got 'distance')"),
+    ({"reward_windows": 0}, "option 'reward_windows': expected greater than or equal to 1 (got 0)"),
     ({"ppo": {"n_step": 5}}, "unknown option 'ppo.n_step' (expected one of n_steps, batch_size, n_epochs, "
                              "learning_rate, gamma, gae_lambda, clip_range, ent_coef, vf_coef, max_grad_norm); "
                              "did you mean 'n_steps'?"),
     ({"seed": -1}, "option 'seed': expected greater than or equal to 0 (got -1)"),
     ({"total_steps": "100"}, "option 'total_steps': expected a valid integer (got '100')"),
     ({"net": {"activation": "gelu"}}, "option 'net.activation': expected 'tanh' or 'relu' (got 'gelu')"),
-    ({"ppo": {"batch_size": 7}}, "ppo.batch_size (7) must divide ppo.n_steps x workers (256) so no minibatch is "
-                                 "truncated"),
+    ({"ppo": {"batch_size": 7}}, "ppo.batch_size (7) must divide ppo.n_steps x workers x envs_per_worker (256) so "
+                                 "no minibatch is truncated"),
     ({"env": {"scenes": "val"}}, "option 'env': give the scenes as the top-level option 'scenes' (a list of "
                                  "splits, 'procedural' or names), not under 'env' (got {'scenes': 'val'})"),
 ])

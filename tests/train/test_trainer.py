@@ -159,3 +159,21 @@ def test_eval_suite_with_other_observation_shapes_is_refused_before_training(sui
     assert str(info.value).endswith("(expected the same shapes); give the training env the suite's feature options "
                                     "(n_bands, n_segments, patch_size)")
     assert not (tmp_path / "run" / "checkpoint.json").exists()
+
+
+@pytest.mark.slow
+def test_warm_start_clones_the_teacher_with_the_end_score_reward_on_grouped_workers(suite_file, tmp_path):
+    # Behaviour cloning (Pomerleau 1991) fits the policy to the teacher's actions: on a few hundred steps of a
+    # scripted policy a small network agrees with most of them (common practice; the threshold is ours). Two
+    # workers of two environments each, as the bundled config runs, and equal seeds give equal clones.
+    def run(name):
+        data = smoke_config(str(suite_file), total_steps=128, workers=2, envs_per_worker=2, reward="end-score",
+                            warm_start={"policy": "follow-bearing", "episodes": 12, "epochs": 30})
+        data["ppo"] = {"n_steps": 32, "batch_size": 32, "n_epochs": 1}
+        return train(make_train_config(data), tmp_path / name, progress=False)
+
+    a, b = run("a"), run("b")
+    assert a["warm_start"]["teacher"] == "follow-bearing" and a["warm_start"]["teacher_privileged"] is False
+    assert a["warm_start"]["steps"] == 12 * 6  # 12 episodes of the small scene's 6-step budget
+    assert a["warm_start"]["agreement"] >= 0.6
+    assert a["warm_start"]["agreement"] == b["warm_start"]["agreement"] and a["steps"] == 128
