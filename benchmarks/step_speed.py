@@ -73,16 +73,6 @@ def first_load(env) -> None:
           f"from HEARNAV_CACHE (built there if absent)")
 
 
-def open_scenes(env) -> None:
-    """Open every scene's world and maps once, as a long training run has after its first episodes."""
-    from hearnav.env.worlds import get_maps, get_world
-
-    cfg = env.config
-    for name in env.scene_names:
-        get_world(name, cfg.acoustics, env.window_len)
-        get_maps(name, cfg.acoustics, cfg.patch_size, float(np.deg2rad(cfg.fov_deg)))
-
-
 def floor_time(record: list) -> float:
     """Seconds for bare FFT mixing of the recorded windows from cached spectra, plus one STFT/ISTFT pair."""
     from hearnav.listening import ROW_BLOCK
@@ -149,7 +139,7 @@ def main() -> None:
           f"built first if absent)")
     first_load(env)
     t0 = time.perf_counter()
-    open_scenes(env)
+    env.preload()  # every scene's tables, as a long training run has after its first episodes
     print(f"opening the tables of all {len(env.scene_names)} scenes: {time.perf_counter() - t0:.1f} s (once per "
           f"process: each part's CRC-32 is checked; not counted in the resets below)")
     t0 = time.perf_counter()

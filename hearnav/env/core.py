@@ -251,6 +251,13 @@ class HearNavEnv(gym.Env):
         self._path: list[tuple[int, int]] = []
         self._fov = float(np.deg2rad(cfg.fov_deg))
 
+    def preload(self) -> None:
+        """Open every scene's tables and maps now (building them if they are not cached), as the first episode in
+        each scene otherwise does: a trainer or a timing pays the once-per-process cost up front."""
+        for name in self.scene_names:
+            get_world(name, self.config.acoustics, self.window_len)
+            get_maps(name, self.config.acoustics, self.config.patch_size, self._fov)
+
     # -- episode -----------------------------------------------------------------------------------------------
 
     def reset(self, *, seed: int | None = None, options: dict | None = None):

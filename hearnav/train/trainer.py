@@ -310,6 +310,7 @@ class Trainer:
         self.evaluator = Evaluator(self.config)
         self.venv = make_vec_env(self.config)
         try:
+            self.venv.env_method("preload")  # every worker opens (or builds) every scene's tables now, in parallel
             self.evaluator.check_spaces(self.venv.observation_space)
             return self._train(ckpt)
         finally:

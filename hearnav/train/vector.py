@@ -156,12 +156,14 @@ class GroupVecEnv(VecEnv):
         return [indices] if isinstance(indices, int) else list(indices)
 
     def _call(self, cmd: str, indices: Any, *payload: Any) -> list[Any]:
-        out = []
+        """Send ``cmd`` for every index first, then collect the answers: the workers answer in parallel, each
+        pipe in the order it was sent."""
+        sent = []
         for i in self._indices(indices):
             remote, local = self._where(i)
             remote.send((cmd, (local, *payload)))
-            out.append(remote.recv())
-        return out
+            sent.append(remote)
+        return [remote.recv() for remote in sent]
 
     def get_attr(self, attr_name: str, indices: Any = None) -> list[Any]:
         return self._call("get_attr", indices, attr_name)
