@@ -340,6 +340,8 @@ class Trainer:
         self.next_eval = (last + cfg.eval.every_steps) if last is not None else cfg.eval.every_steps
         self.last_eval = last
         self.next_checkpoint = self.start_step + cfg.checkpoint_every
+        if ckpt is None and cfg.warm_start is not None:
+            self._evaluate(self.start_step)  # the cloned policy, before PPO: the best so far until PPO beats it
         started = self.started
         self._session_info(started, "running")
         sb3_bar = self.progress and _has("rich") and _has("tqdm")  # SB3's own bar needs both

@@ -177,3 +177,5 @@ def test_warm_start_clones_the_teacher_with_the_end_score_reward_on_grouped_work
     assert a["warm_start"]["steps"] == 12 * 6  # 12 episodes of the small scene's 6-step budget
     assert a["warm_start"]["agreement"] >= 0.6
     assert a["warm_start"]["agreement"] == b["warm_start"]["agreement"] and a["steps"] == 128
+    evals = [json.loads(line) for line in (tmp_path / "a" / "eval.jsonl").read_text().splitlines()]
+    assert [e["step"] for e in evals] == [0, 64, 128]  # the cloned policy is evaluated before PPO
