@@ -25,7 +25,7 @@ from hearnav.train.runinfo import RESUMABLE, command_line, config_digest, read_j
 
 def _env_factory(options: dict, rank: int, reward: str = "paired",
                  reward_windows: int | None = None) -> Callable[[], Any]:
-    """A function that builds worker ``rank``'s environment (in the worker process for SubprocVecEnv), with the
+    """A function that builds worker ``rank``'s environment (in a worker process when there are several), with the
     trainer's reward (:mod:`hearnav.train.reward`)."""
 
     def make() -> Any:

@@ -2,8 +2,8 @@
 
 stable-baselines3's SubprocVecEnv gives each environment its own process and steps them in lock step: every
 vectorised step wakes each worker for one environment step (about 1.5-3 ms here) and waits for the slowest.
-On 2 cores two such workers measured 0.83-0.94x the rate of one process (``benchmarks/train_throughput.py``):
-the workers sat idle about 40 % of the time, waiting for each other, and paid a cold cache on every wake-up.
+On 2 cores two such workers reached 1.29x the rate of one process (``benchmarks/train_throughput.py``, every
+scene's tables opened first): a worker waits whenever the other's step is a reset or a longer render.
 Here each worker owns ``len(env_fns) / workers`` environments and steps them all for one message, so a wake-up
 carries several steps and the group's summed step time varies less than one step's. Semantics are
 SubprocVecEnv's: auto-reset with ``terminal_observation`` and ``TimeLimit.truncated`` in the info, per-environment

@@ -1,4 +1,5 @@
-"""GroupVecEnv steps like stable-baselines3's DummyVecEnv, environment for environment."""
+"""hearnav.train.vector (named apart from tests/env/test_vector.py): GroupVecEnv steps like stable-baselines3's
+DummyVecEnv, environment for environment."""
 
 from __future__ import annotations
 
