@@ -19,12 +19,17 @@ STEPS = "time/total_timesteps"
 #: Panels: (title, y label, column patterns tried in order, sign). SB3 logs ``train/entropy_loss`` as minus the
 #: policy's mean entropy (stable-baselines3 PPO.train), so it is negated to show the entropy.
 PANELS = (
-    ("Episode return while training", "mean episode return (dB, sum of paired rewards)",
+    ("Episode return while training", "mean episode return (dB, sum of the trainer's rewards)",
      (r"^rollout/ep_rew_mean$",), 1.0),
     ("Validation gain of the current policy", "mean end gain on the val suite (dB)",
      (r"^(val|eval)[^/]*/.*gain", r"gain_db$", r"^eval/mean_reward$"), 1.0),
     ("Policy entropy", "mean entropy of the action distribution (nats)", (r"^train/entropy_loss$",), -1.0),
 )
+
+
+#: The return panel's y label by the trainer's ``reward`` option (train.json's config).
+RETURN_LABELS = {"paired": "mean episode return (dB, sum of paired rewards)",
+                 "end-score": "mean episode return (dB: the gain on the reward windows)"}
 
 
 def find_progress(folder: str | os.PathLike) -> Path:
@@ -67,9 +72,10 @@ def _column(columns: dict[str, np.ndarray], patterns) -> str | None:
     return None
 
 
-def training_figure(columns: dict[str, np.ndarray], baselines: dict[str, float] | None = None, source: str = ""):
+def training_figure(columns: dict[str, np.ndarray], baselines: dict[str, float] | None = None, source: str = "",
+                    reward: str | None = None):
     """Three panels against environment steps; ``baselines`` (policy: mean gain dB) are drawn as horizontal lines
-    on the validation panel."""
+    on the validation panel; ``reward`` (the trainer's reward option) names what the returns sum."""
     steps = columns.get(STEPS)
     if steps is None or not np.isfinite(steps).any():
         steps = np.arange(len(next(iter(columns.values()), [])), dtype=float)
@@ -83,7 +89,10 @@ def training_figure(columns: dict[str, np.ndarray], baselines: dict[str, float] 
             ax.text(0.5, 0.5, "not in the log", ha="center", va="center", transform=ax.transAxes, color="0.4")
         else:
             ok = np.isfinite(columns[key]) & np.isfinite(steps)
-            ax.plot(steps[ok], sign * columns[key][ok], "-o", ms=3, c=style.POLICY_COLOURS[0], lw=1.5, label=key)
+            ax.plot(steps[ok], sign * columns[key][ok], "-o", ms=3, c=style.POLICY_COLOURS[0], lw=1.5,
+                    label="the policy being trained" if title.startswith("Validation") else key)
+        if title.startswith("Episode return") and reward in RETURN_LABELS:
+            ylabel = RETURN_LABELS[reward]
         if title.startswith("Validation") and baselines:
             for k, (name, value) in enumerate(baselines.items()):
                 ax.axhline(value, ls="--", lw=1.1, c=style.policy_colour(k + 1), label=f"{name} (benchmark run)")
@@ -107,5 +116,15 @@ def baseline_gains(run) -> dict[str, float]:
 def plot_training(train_dir: str | os.PathLike, out: str | os.PathLike, run=None) -> list[Path]:
     """Write ``training.png/.svg`` of a training folder; returns the paths."""
     path = find_progress(train_dir)
-    fig = training_figure(read_progress(path), baseline_gains(run), Path(train_dir).name)
+    fig = training_figure(read_progress(path), baseline_gains(run), Path(train_dir).name, _reward(Path(train_dir)))
     return style.save(fig, out, "training")
+
+
+def _reward(train_dir: Path) -> str | None:
+    """The trainer's reward option from ``train.json``, or None when it is missing or unreadable."""
+    import json
+
+    try:
+        return json.loads((train_dir / "train.json").read_text(encoding="utf-8"))["config"].get("reward", "paired")
+    except (OSError, ValueError, KeyError, TypeError, AttributeError):
+        return None

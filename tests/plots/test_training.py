@@ -29,13 +29,21 @@ def test_three_panels_with_units_and_the_entropy_negated(tmp_path):
     fig = training_figure(read_progress(find_progress(_write(tmp_path / "t", ROWS))), {"still": 0.0})
     ret, val, ent = fig.axes
     assert [ax.get_xlabel() for ax in fig.axes] == ["environment steps"] * 3
-    assert ret.get_ylabel() == "mean episode return (dB, sum of paired rewards)"
+    assert ret.get_ylabel() == "mean episode return (dB, sum of the trainer's rewards)"
     assert val.get_ylabel() == "mean end gain on the val suite (dB)"
     assert ent.get_ylabel() == "mean entropy of the action distribution (nats)"
     # SB3's PPO logs entropy_loss = -mean(entropy)
     assert ent.get_lines()[0].get_ydata() == pytest.approx([1.3, 1.2, 1.1, 1.0])
     assert val.get_lines()[0].get_xdata().tolist() == [4096, 8192]  # empty cells are left out
     assert any(line.get_label() == "still (benchmark run)" for line in val.get_lines())
+
+
+@pytest.mark.parametrize("reward, label", [("paired", "mean episode return (dB, sum of paired rewards)"),
+                                           ("end-score", "mean episode return (dB: the gain on the reward windows)")])
+def test_the_return_says_what_it_sums(tmp_path, reward, label):
+    fig = training_figure(read_progress(find_progress(_write(tmp_path / "t", ROWS))), reward=reward)
+    assert fig.axes[0].get_ylabel() == label
+    assert fig.axes[1].get_lines()[0].get_label() == "the policy being trained"
 
 
 def test_a_missing_column_is_said_on_its_panel(tmp_path):
