@@ -9,15 +9,24 @@ from hearnav.cli.paths import output_file, output_folder
 FIGURES = "figures"
 
 
+def _kind(kinds, name: str, brief: str, description: str, folder: str, run) -> object:
+    """One ``hearnav plot KIND`` parser: its positional input folder, ``--out`` (default FOLDER/figures) and the
+    function that runs it."""
+    k = kinds.add_parser(name, help=brief, description=description)
+    k.add_argument(folder.lower(), type=Path, metavar=folder)
+    k.add_argument("--out", type=Path, help=f"figures folder (default {folder}/{FIGURES})")
+    k.set_defaults(run=run)
+    return k
+
+
 def register(sub) -> None:
     """Add the ``plot`` and ``score-map`` subcommands."""
     p = sub.add_parser("plot", help="figures of a benchmark run (PNG and SVG)",
                        description="Draw figures of a run folder written by 'hearnav bench'.")
     kinds = p.add_subparsers(dest="kind", metavar="KIND", required=True)
-    t = kinds.add_parser("trajectories", help="one figure per episode: each policy's path on the plan",
-                         description="One figure per episode: the plan, the sources and their stand-off rings, and "
-                                     "each policy's path with heading ticks, start, end and blocked moves.")
-    t.add_argument("run_dir", type=Path, metavar="RUN_DIR")
+    t = _kind(kinds, "trajectories", "one figure per episode: each policy's path on the plan",
+              "One figure per episode: the plan, the sources and their stand-off rings, and each policy's path with "
+              "heading ticks, start, end and blocked moves.", "RUN_DIR", run_trajectories)
     which = t.add_mutually_exclusive_group()
     which.add_argument("--episodes", metavar="I,J,...", help="episode indices, e.g. 0,3,7")
     which.add_argument("--first", type=int, metavar="K", help="the first K episodes (default 3)")
@@ -26,23 +35,15 @@ def register(sub) -> None:
                    help="underlay the separator's score at every cell (best heading) on the windows the end pose "
                         "is scored on, and mark the oracle bound's pose (slower: scores every pose)")
     t.add_argument("--suite", help="the run's suite (a name or YAML file), if run.json's suite name does not find it")
-    t.add_argument("--out", type=Path, help=f"figures folder (default RUN_DIR/{FIGURES})")
-    t.set_defaults(run=run_trajectories)
-    g = kinds.add_parser("gains", help="gain distributions, paired differences per scene, gain during vs at the end",
-                         description="Per-episode gains by policy (privileged policies apart), paired differences "
-                                     "against the reference per scene, and the gain during vs at the episode's end.")
-    g.add_argument("run_dir", type=Path, metavar="RUN_DIR")
+    g = _kind(kinds, "gains", "gain distributions, paired differences per scene, gain during vs at the end",
+              "Per-episode gains by policy (privileged policies apart), paired differences against the reference "
+              "per scene, and the gain during vs at the episode's end.", "RUN_DIR", run_gains)
     g.add_argument("--reference", help="policy the others are compared with (default the summary's)")
-    g.add_argument("--out", type=Path, help=f"figures folder (default RUN_DIR/{FIGURES})")
-    g.set_defaults(run=run_gains)
-    tr = kinds.add_parser("training", help="learning curves from the trainer's progress.csv",
-                          description="Return, validation gain and entropy against environment steps, from the "
-                                      "progress.csv of a training folder; --run adds a run's baselines as lines.")
-    tr.add_argument("train_dir", type=Path, metavar="TRAIN_DIR")
+    tr = _kind(kinds, "training", "learning curves from the trainer's progress.csv",
+               "Return, validation gain and entropy against environment steps, from the progress.csv of a training "
+               "folder; --run adds a run's baselines as lines.", "TRAIN_DIR", run_training)
     tr.add_argument("--run", dest="baseline_run", type=Path, metavar="RUN_DIR",
                     help="a benchmark run whose agents' mean gains to draw")
-    tr.add_argument("--out", type=Path, help=f"figures folder (default TRAIN_DIR/{FIGURES})")
-    tr.set_defaults(run=run_training)
     s = sub.add_parser("score-map", help="the separator's score at every cell for one arrangement of sources",
                        description="Score every cell (best heading) of a scene with the target and distractors at "
                                    "named spots, over K windows, and draw the map; no run needed.")
