@@ -30,7 +30,6 @@ class EndScoreReward(gym.Wrapper):
         base = env.unwrapped
         self.windows = int(windows if windows is not None else base.config.eval_windows)
         self.budget = int(base.config.budget)
-        self._steps = 0
         self._potential = 0.0
         self._cache: dict[tuple[int, int], float] = {}
 
@@ -39,20 +38,20 @@ class EndScoreReward(gym.Wrapper):
         pose = (int(info["pose"]["cell"]), int(info["pose"]["heading"]))
         if pose not in self._cache:
             # the windows right after the episode: budget - steps windows after the one the next step hears
-            scores = self.env.unwrapped.scores_ahead([pose], self.windows, offset=self.budget - self._steps)[:, 0]
+            base = self.env.unwrapped
+            scores = base.scores_ahead([pose], self.windows, offset=self.budget - base.steps)[:, 0]
             scored = scores[~np.isnan(scores)]
             self._cache[pose] = float(scored.mean()) if scored.size else 0.0
         return self._cache[pose]
 
     def reset(self, **kwargs: Any) -> tuple[Any, dict]:
         obs, info = self.env.reset(**kwargs)
-        self._steps, self._cache = 0, {}
+        self._cache = {}
         self._potential = self._phi(info)
         return obs, info
 
     def step(self, action: Any) -> tuple[Any, float, bool, bool, dict]:
         obs, reward, terminated, truncated, info = self.env.step(action)
-        self._steps += 1
         potential = self._phi(info)
         info["paired_reward"] = reward
         reward, self._potential = potential - self._potential, potential

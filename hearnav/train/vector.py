@@ -35,11 +35,12 @@ def _step(env: gym.Env, action: Any) -> tuple[Any, float, bool, dict, dict]:
     return observation, float(reward), bool(done), info, reset_info
 
 
-def _stack(observations: Sequence[Any]) -> Any:
-    """Stack a group's observations: a dict of arrays for Dict spaces, else one array."""
-    if isinstance(observations[0], dict):
-        return {k: np.stack([o[k] for o in observations]) for k in observations[0]}
-    return np.stack(observations)
+def _join(parts: Sequence[Any], join: Callable[[list], np.ndarray] = np.stack) -> Any:
+    """Join observations (``np.stack``: one per environment) or batches of them (``np.concatenate``): key by
+    key for Dict spaces, else as arrays."""
+    if isinstance(parts[0], dict):
+        return {k: join([p[k] for p in parts]) for k in parts[0]}
+    return join(list(parts))
 
 
 def _group_worker(remote: Any, parent_remote: Any, fns: CloudpickleWrapper) -> None:
@@ -55,12 +56,12 @@ def _group_worker(remote: Any, parent_remote: Any, fns: CloudpickleWrapper) -> N
         if cmd == "step":
             results = [_step(env, a) for env, a in zip(envs, data)]
             obs, rewards, dones, infos, reset_infos = zip(*results)
-            remote.send((_stack(obs), np.array(rewards, np.float32), np.array(dones), list(infos),
+            remote.send((_join(obs), np.array(rewards, np.float32), np.array(dones), list(infos),
                          list(reset_infos)))
         elif cmd == "reset":
             seeds, options = data
             pairs = [env.reset(seed=s, **({"options": o} if o else {})) for env, s, o in zip(envs, seeds, options)]
-            remote.send((_stack([p[0] for p in pairs]), [p[1] for p in pairs]))
+            remote.send((_join([p[0] for p in pairs]), [p[1] for p in pairs]))
         elif cmd == "get_spaces":
             remote.send((envs[0].observation_space, envs[0].action_space))
         elif cmd == "get_attr":
@@ -110,11 +111,6 @@ class GroupVecEnv(VecEnv):
                 return remote, group.index(index)
         raise IndexError(f"environment {index} of {self.num_envs}")
 
-    def _concat(self, parts: Sequence[Any]) -> Any:
-        if isinstance(parts[0], dict):
-            return {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
-        return np.concatenate(parts)
-
     def step_async(self, actions: np.ndarray) -> None:
         for remote, group in zip(self.remotes, self.groups):
             remote.send(("step", [actions[i] for i in group]))
@@ -125,7 +121,7 @@ class GroupVecEnv(VecEnv):
         self.waiting = False
         obs, rewards, dones, infos, reset_infos = zip(*results)
         self.reset_infos = [info for part in reset_infos for info in part]
-        return (self._concat(obs), np.concatenate(rewards), np.concatenate(dones),
+        return (_join(obs, np.concatenate), np.concatenate(rewards), np.concatenate(dones),
                 [info for part in infos for info in part])
 
     def reset(self) -> Any:
@@ -136,7 +132,7 @@ class GroupVecEnv(VecEnv):
         self.reset_infos = [info for part in reset_infos for info in part]
         self._reset_seeds()
         self._reset_options()
-        return self._concat(obs)
+        return _join(obs, np.concatenate)
 
     def close(self) -> None:
         if self.closed:
