@@ -67,6 +67,15 @@ def failed_result(task: Task, reason: str, privileged: bool = False) -> EpisodeR
                          episode_seed=task.seed, oracle_gain_db=task.oracle, status="failed", error=reason)
 
 
+def policy_extra(env, policy, seed: int) -> dict:
+    """What a policy gets in ``info`` beside the environment's own keys: its seed, and the privileged view when it
+    asks for privileged access."""
+    extra = {"seed": policy_seed(seed)}
+    if is_privileged(policy):
+        extra["privileged"] = env.unwrapped.privileged
+    return extra
+
+
 def run_episode(env: HearNavEnv, name: str, policy, task: Task, rewards: list | None = None) -> EpisodeResult:
     """Play one episode and return its result (status "ok" or "failed"); each step's reward is appended to
     ``rewards`` when it is given."""
@@ -88,9 +97,7 @@ def run_episode(env: HearNavEnv, name: str, policy, task: Task, rewards: list | 
     best, ret, collisions, path, steps, along = start, 0.0, 0, 0.0, 0, []
     audio = [] if task.audio_dir else None
     try:
-        extra = {"seed": policy_seed(task.seed)}
-        if privileged:
-            extra["privileged"] = env.unwrapped.privileged
+        extra = policy_extra(env, policy, task.seed)
         policy.reset(obs, {**info, **extra})
         truncated = False
         while not truncated:

@@ -80,6 +80,9 @@ class WarmStartOptions(BaseModel):
                               description="the teacher: a registered policy name or reference")
     episodes: StrictInt = Field(default=300, ge=1, le=100_000, description="teacher episodes on the training scenes")
     epochs: StrictInt = Field(default=10, ge=1, le=1000, description="passes over the teacher's steps")
+    dagger_rounds: StrictInt = Field(default=0, ge=0, le=50, description="rounds in which the clone acts for "
+                                                                         "'episodes' episodes, labelled by the "
+                                                                         "teacher, then is fitted again (DAgger)")
     batch_size: StrictInt = Field(default=256, ge=2, le=1_000_000)
     learning_rate: StrictFloat = Field(default=1e-3, gt=0.0, le=1.0)
 

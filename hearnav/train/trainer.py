@@ -86,19 +86,19 @@ def new_model(config: TrainConfig, venv: Any, seed: int) -> Any:
 
 def warm_start(model: Any, config: TrainConfig, progress: bool) -> dict:
     """Clone ``config.warm_start``'s teacher into ``model`` (:mod:`hearnav.train.warmstart`); what it did."""
-    from hearnav.train.warmstart import clone, collect
+    from hearnav.train import warmstart
 
     options = config.warm_start
     if progress:
         print(f"hearnav: warm start: {options.episodes} episodes of {options.policy}, then {options.epochs} epochs "
-              f"of behaviour cloning", flush=True)
+              f"of behaviour cloning, {options.dagger_rounds} DAgger rounds", flush=True)
     t0 = time.time()
     make = _env_factory(config.env_config(config.scene_names()).model_dump(), -1, config.reward, config.reward_windows)
-    result = clone(model, collect(config, make), config)
+    result = warmstart.run(model, config, make, (lambda line: print(f"hearnav: warm start: {line}", flush=True))
+                           if progress else (lambda line: None))
     result["wall_time_s"] = round(time.time() - t0, 3)
     if progress:
-        print(f"hearnav: warm start: {result['steps']} steps, agreement with the teacher {result['agreement']:.1%}, "
-              f"teacher's mean return {result['teacher_mean_return']:+.2f} ({result['wall_time_s']:.0f} s)", flush=True)
+        print(f"hearnav: warm start: done in {result['wall_time_s']:.0f} s", flush=True)
     return result
 
 

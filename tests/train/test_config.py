@@ -25,8 +25,10 @@ def test_scenes_expand_splits_and_procedural_once_each():
                         "envs_per_worker, reward, reward_windows, normalize_reward, checkpoint_every, ppo, net, eval, "
                         "warm_start); did you mean 'total_steps'?"),
     ({"warm_start": {"episods": 5}}, "unknown option 'warm_start.episods' (expected one of policy, episodes, epochs, "
-                                     "batch_size, learning_rate); did you mean 'episodes', 'epochs'?"),
+                                     "dagger_rounds, batch_size, learning_rate); did you mean 'episodes', 'epochs'?"),
     ({"reward": "distance"}, "option 'reward': expected 'paired' or 'end-score' (got 'distance')"),
+    ({"warm_start": {"dagger_rounds": -1}}, "option 'warm_start.dagger_rounds': expected greater than or equal to 0 "
+                                            "(got -1)"),
     ({"reward_windows": 0}, "option 'reward_windows': expected greater than or equal to 1 (got 0)"),
     ({"ppo": {"n_step": 5}}, "unknown option 'ppo.n_step' (expected one of n_steps, batch_size, n_epochs, "
                              "learning_rate, gamma, gae_lambda, clip_range, ent_coef, vf_coef, max_grad_norm); "

@@ -179,3 +179,17 @@ def test_warm_start_clones_the_teacher_with_the_end_score_reward_on_grouped_work
     assert a["warm_start"]["agreement"] == b["warm_start"]["agreement"] and a["steps"] == 128
     evals = [json.loads(line) for line in (tmp_path / "a" / "eval.jsonl").read_text().splitlines()]
     assert [e["step"] for e in evals] == [0, 64, 128]  # the cloned policy is evaluated before PPO
+
+
+@pytest.mark.slow
+def test_dagger_rounds_let_the_clone_act_and_fit_again_on_everything_gathered(suite_file, tmp_path):
+    # DAgger (Ross, Gordon & Bagnell 2011): after cloning, each round the clone acts, the teacher (here the
+    # privileged approach, which the clone never sees) labels its steps, and the fit uses all steps so far.
+    data = smoke_config(str(suite_file), total_steps=64,
+                        warm_start={"policy": "approach", "episodes": 8, "epochs": 20, "dagger_rounds": 2})
+    info = train(make_train_config(data), tmp_path / "run", progress=False)["warm_start"]
+    assert info["teacher"] == "approach" and info["teacher_privileged"] is True and info["dagger_rounds"] == 2
+    assert [r["actor"] for r in info["rounds"]] == ["teacher", "clone", "clone"]
+    assert [r["steps"] for r in info["rounds"]] == [8 * 6, 16 * 6, 24 * 6] and info["steps"] == 24 * 6
+    assert info["agreement"] == info["rounds"][-1]["agreement"] >= 0.6
+    assert info["teacher_mean_return"] == info["rounds"][0]["mean_return"]
