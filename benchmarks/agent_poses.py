@@ -7,7 +7,9 @@ prints for the end poses of each policy and for the bound's poses:
 - the share of episodes ending in line of sight of the target's spot;
 - the share ending shielded from at least one distractor (no line of sight to its spot), and the share shielded
   from a distractor that the ring's nearest cell to the target sees (``task_validity.shields``);
-- the share ending facing the target within half a heading step.
+- the share ending facing the target within half a heading step;
+- the mean number of steps per episode that undo the step before (a turn one way, then back, in one cell): a
+  policy without memory dithers where its observation does not change (the bound's poses: no path, "-").
 
 Usage: python benchmarks/agent_poses.py [--suite test] [--episodes 60] [--policy ppo-tiny --policy ...]
 """
@@ -39,6 +41,12 @@ def describe(env, cell: int, heading: int, nearest: int) -> dict:
             "facing": heading == facing(env, cell, target)}
 
 
+def undone_turns(poses: list) -> int:
+    """Steps of a path of (cell, heading) poses that return to the pose of two steps before by turning in place."""
+    p = [tuple(x) for x in poses]
+    return sum(1 for a, b, c in zip(p, p[1:], p[2:]) if a == c and a[0] == b[0] and a[1] != b[1])
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--suite", default="test")
@@ -64,19 +72,23 @@ def main() -> None:
         for name, policy in policies.items():
             row = run_episode(env, name, policy, Task(name, index, seed, bound.gain_db))
             pose = row.final_pose
-            rows[name].append({"gain": row.gain_db, **describe(env, pose["cell"], pose["heading"], nearest)})
+            rows[name].append({"gain": row.gain_db, **describe(env, pose["cell"], pose["heading"], nearest),
+                               "undone": undone_turns(row.poses)})
         print(f"episode {index + 1}/{len(seeds)}", file=sys.stderr)
     total = sum(r["gain"] for r in rows["oracle bound"])
     print(f"{len(seeds)} episodes of the {suite.name} suite (budget {env.config.budget} steps, target cue "
           f"{env.config.target_cue}, stand-off {env.config.standoff_m} m)")
     print("| end poses of | mean gain dB | share of the bound | distance to target m | in line of sight of the "
-          "target | shielded from a distractor | shielded from one the ring's nearest cell sees | facing the target |")
-    print("|---|---|---|---|---|---|---|---|")
+          "target | shielded from a distractor | shielded from one the ring's nearest cell sees | facing the target | "
+          "turns undone per episode |")
+    print("|---|---|---|---|---|---|---|---|---|")
     for name, found in rows.items():
         mean = {k: np.mean([r[k] for r in found]) for k in found[0]}
         share = sum(r["gain"] for r in found) / total if total else float("nan")
+        undone = f"{mean['undone']:.2f}" if "undone" in mean else "-"
         print(f"| {name} | {mean['gain']:.2f} | {share:.1%} | {mean['distance']:.2f} | {mean['los']:.1%} | "
-              f"{mean['shielded']:.1%} | {mean['shielded_vs_nearest']:.1%} | {mean['facing']:.1%} |")
+              f"{mean['shielded']:.1%} | {mean['shielded_vs_nearest']:.1%} | {mean['facing']:.1%} | "
+              f"{undone} |")
 
 
 if __name__ == "__main__":

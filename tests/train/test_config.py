@@ -6,13 +6,22 @@ import pytest
 
 from hearnav.cli import main
 from hearnav.errors import ConfigError
-from hearnav.train.config import load_train_config, make_train_config
+from hearnav.train.config import CONFIG_DIR, load_train_config, make_train_config
 
 
-def test_bundled_configs_are_valid():
-    for name in ("ppo-tiny", "smoke"):
-        config = load_train_config(name)
-        assert config.ppo.n_steps * config.n_envs % config.ppo.batch_size == 0
+BUNDLED = sorted(p.stem for p in CONFIG_DIR.glob("*.yaml"))
+
+
+def test_every_bundled_config_is_listed_here():
+    assert set(BUNDLED) >= {"ppo-tiny", "smoke", "dagger-approach"}
+
+
+@pytest.mark.parametrize("name", BUNDLED)
+def test_bundled_configs_are_valid(name):
+    # SB3's PPO splits each rollout of n_steps x n_envs steps into minibatches of batch_size (common practice:
+    # a size that divides it, else SB3 warns of a truncated minibatch).
+    config = load_train_config(name)
+    assert config.ppo.n_steps * config.n_envs % config.ppo.batch_size == 0
 
 
 def test_scenes_expand_splits_and_procedural_once_each():
