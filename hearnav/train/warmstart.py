@@ -11,7 +11,9 @@ privileged view, as in the benchmark, while the network still sees only the agen
 cloned is a non-privileged policy (learning from a privileged teacher, Chen et al. 2019). A clone drifts to
 poses its teacher never visited; each of ``dagger_rounds`` rounds lets the clone act for ``episodes`` episodes,
 labels every pose it reaches with the teacher's action there, and fits again on everything gathered so far
-(DAgger, Ross, Gordon & Bagnell 2011, with the teacher's share beta = 0 after the first round). The teacher's
+(DAgger, Ross, Gordon & Bagnell 2011, with the teacher's share beta = 0 after the first round). DAgger needs a
+teacher whose action depends on the pose it finds, not on its own past actions (``approach`` replans;
+``follow-bearing``'s dead reckoning assumes its actions were taken). The teacher's
 privileged flag, each round's agreement and the mean return of whoever acted are recorded.
 """
 
