@@ -66,7 +66,6 @@ class ScaledExtractor(BaseFeaturesExtractor):
                 width += int(np.prod(shape))
         super().__init__(observation_space, features_dim=width)
         self.extractors = nn.ModuleDict(extractors)
-        self.scaled = bool(scale)
         for j, space in enumerate(observation_space.spaces.values()):  # buffers by index: keys may hold dots
             gain, offset = box_scale(space) if scale else (np.ones(space.shape, np.float32),
                                                            np.zeros(space.shape, np.float32))

@@ -47,21 +47,24 @@ def _env_factory(options: dict, rank: int, reward: str = "paired",
     return make
 
 
+def config_env_factory(config: TrainConfig, rank: int) -> Callable[[], Any]:
+    """:func:`_env_factory` for ``config``'s scenes, environment options and reward."""
+    return _env_factory(config.env_config(config.scene_names()).model_dump(), rank, config.reward,
+                        config.reward_windows)
+
+
 def make_vec_env(config: TrainConfig) -> Any:
     """The training VecEnv of ``config.n_envs`` environments: in this process (DummyVecEnv) for one worker, else
     :class:`hearnav.train.vector.GroupVecEnv` (each worker steps its ``envs_per_worker`` per message);
     VecNormalize on rewards if asked."""
     from stable_baselines3.common.vec_env import DummyVecEnv, VecNormalize
 
-    options = config.env_config(config.scene_names()).model_dump()
     if config.workers == 1:
-        venv = DummyVecEnv([_env_factory(options, -1, config.reward, config.reward_windows)
-                            for _ in range(config.n_envs)])
+        venv = DummyVecEnv([config_env_factory(config, -1) for _ in range(config.n_envs)])
     else:
         from hearnav.train.vector import GroupVecEnv
 
-        venv = GroupVecEnv([_env_factory(options, k, config.reward, config.reward_windows)
-                            for k in range(config.n_envs)], config.workers)
+        venv = GroupVecEnv([config_env_factory(config, k) for k in range(config.n_envs)], config.workers)
     if config.normalize_reward:
         venv = VecNormalize(venv, norm_obs=False, norm_reward=True, gamma=config.ppo.gamma)
     return venv
@@ -93,8 +96,7 @@ def warm_start(model: Any, config: TrainConfig, progress: bool) -> dict:
         print(f"hearnav: warm start: {options.episodes} episodes of {options.policy}, then {options.epochs} epochs "
               f"of behaviour cloning, {options.dagger_rounds} DAgger rounds", flush=True)
     t0 = time.time()
-    make = _env_factory(config.env_config(config.scene_names()).model_dump(), -1, config.reward, config.reward_windows)
-    result = warmstart.run(model, config, make, (lambda line: print(f"hearnav: warm start: {line}", flush=True))
+    result = warmstart.run(model, config, config_env_factory(config, -1), (lambda line: print(f"hearnav: warm start: {line}", flush=True))
                            if progress else (lambda line: None))
     result["wall_time_s"] = round(time.time() - t0, 3)
     if progress:

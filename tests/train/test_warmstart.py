@@ -9,7 +9,7 @@ pytest.importorskip("stable_baselines3")
 
 from hearnav.env import Action  # noqa: E402
 from hearnav.train.config import make_train_config  # noqa: E402
-from hearnav.train.trainer import _env_factory  # noqa: E402
+from hearnav.train.trainer import config_env_factory  # noqa: E402
 from hearnav.train.warmstart import collect, merge  # noqa: E402
 from tests.train.conftest import smoke_config  # noqa: E402
 
@@ -19,8 +19,7 @@ EPISODES = 4
 def _collect(suite_file, student=None, round_index=0):
     config = make_train_config(smoke_config(str(suite_file), warm_start={"policy": "approach",
                                                                           "episodes": EPISODES}))
-    make = _env_factory(config.env_config(config.scene_names()).model_dump(), -1)
-    return collect(config, make, student, round_index)
+    return collect(config, config_env_factory(config, -1), student, round_index)
 
 
 def test_a_privileged_teacher_labels_the_poses_the_student_reaches(suite_file):
