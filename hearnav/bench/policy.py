@@ -58,7 +58,14 @@ class SB3Policy:
     def _prepare(self, observation: dict) -> Any:
         if self.flatten:
             return np.concatenate([np.asarray(observation[k], np.float32).ravel() for k in sorted(observation)])
-        return observation
+        keys = getattr(getattr(self.model, "observation_space", None), "spaces", None)
+        if keys is None:
+            return observation
+        missing = [k for k in keys if k not in observation]
+        if missing:
+            raise PolicyError(f"the model reads the observation keys {', '.join(keys)}, but the observation lacks "
+                              f"{', '.join(missing)}; train the model on this environment")
+        return {k: observation[k] for k in keys}  # keys the model was not trained on are not passed
 
     def reset(self, observation: dict, info: dict) -> None:
         self._state, self._start = None, True

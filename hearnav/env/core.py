@@ -20,6 +20,7 @@ from hearnav.env.episode import (
     dry_signals,
 )
 from hearnav.env.gating import scored_windows, window_energies
+from hearnav.env.odometry import visit_patch
 from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor, band_edges
 from hearnav.env.privileged import PrivilegedView
 from hearnav.env.scoring import SILENT_ENERGY, binaural_scores, window_scores
@@ -133,6 +134,7 @@ class HearNavEnv(gym.Env):
     estimate's levels come from the separator's output spectrum when it synthesised the estimate through
     ``SeparationContext.synthesise`` (every built-in does), else from the STFT of the returned estimate.
     | map | (2, P, P) | egocentric map, row 0 ahead, column 0 left: 1 = cannot be entered (not navigable, or in the stand-off ring); 1 = a source in line of sight inside the field of view ``fov_deg`` | [0, 1] |
+    | visits | (P, P) | the listener's own visits this episode, from odometry, in the map's layout: steps spent in each cell (the start counts as one, turns and stays count) / 4, capped at 1; 0 off the floor (:mod:`hearnav.env.odometry`) | [0, 1] |
     | target | (3,) | the target cue (``target_cue``, below): distance (m), sin and cos of a bearing relative to the heading (counter-clockwise) | [0, 50], [-1, 1] |
     | budget | (1,) | fraction of the step budget left | [0, 1] |
 
@@ -240,6 +242,7 @@ class HearNavEnv(gym.Env):
             "binaural": spaces.Box(binaural_lo, binaural_hi, dtype=np.float32),
             "estimate": level(2),
             "map": spaces.Box(0.0, 1.0, (2, cfg.patch_size, cfg.patch_size), np.float32),
+            "visits": spaces.Box(0.0, 1.0, (cfg.patch_size, cfg.patch_size), np.float32),
             "target": spaces.Box(np.array([0, -1, -1], np.float32), np.array([MAX_DISTANCE, 1, 1], np.float32),
                                  dtype=np.float32),
             "budget": spaces.Box(0.0, 1.0, (1,), np.float32),
@@ -290,6 +293,8 @@ class HearNavEnv(gym.Env):
         self.cell, self.heading = plan.start_cell, plan.start_heading
         self.steps = 0
         self._path = [(self.cell, self.heading)]
+        self._steps_in = np.zeros(world.grid.n_cells, np.float32)  # steps spent in each cell (odometry)
+        self._steps_in[self.cell] = 1.0
         self._spot_ids = [p.spot for p in plan.sources]
         self._poses = world.poses  # the scene's tables, memory-mapped from the store
         self._maps = get_maps(plan.scene, self.config.acoustics, self.config.patch_size, self._fov)
@@ -327,6 +332,7 @@ class HearNavEnv(gym.Env):
         self.before_si_sdr_db = self.score_window(self.peek(*before), *before)[1] if moved else None
         self.steps += 1
         self._path.append((self.cell, self.heading))
+        self._steps_in[self.cell] += 1.0
         self._hear(collided)
         reward = 0.0
         if moved and self.target_active and self.before_si_sdr_db is not None:
@@ -443,6 +449,7 @@ class HearNavEnv(gym.Env):
             "binaural": binaural,
             "estimate": estimate,
             "map": self._map(),
+            "visits": visit_patch(self.world.grid, self._steps_in, self.cell, self.heading, self.config.patch_size),
             "target": self._target_cue(),
             "budget": np.array([1.0 - self.steps / self.config.budget], np.float32),
         }

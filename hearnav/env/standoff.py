@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from hearnav.scene.grid import Grid
-from hearnav.tables.maps import patch_offsets
+from hearnav.tables.maps import patch_cells
 
 
 def ring_cells(grid: Grid, spots_xy: np.ndarray, standoff_m: float) -> np.ndarray:
@@ -47,9 +47,5 @@ class StandoffMoves:
 def ring_patch(grid: Grid, blocked: np.ndarray, cell: int, heading: int, size: int) -> np.ndarray:
     """(size, size) bool: the ring's cells in the egocentric patch of a pose (row 0 ahead, column 0 left, the
     layout of :func:`hearnav.tables.maps.occupancy_patch`)."""
-    ij = grid.ij[cell] + patch_offsets(size, grid.heading_angle(heading))  # (size, size, 2)
-    shape = grid.index.shape
-    inside = (ij[..., 0] >= 0) & (ij[..., 0] < shape[0]) & (ij[..., 1] >= 0) & (ij[..., 1] < shape[1])
-    ids = np.full(inside.shape, -1, np.int64)
-    ids[inside] = grid.index[ij[..., 0][inside], ij[..., 1][inside]]
+    ids = patch_cells(grid, cell, heading, size)
     return (ids >= 0) & blocked[np.maximum(ids, 0)]

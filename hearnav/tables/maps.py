@@ -27,15 +27,21 @@ def patch_offsets(size: int, heading_angle: float) -> np.ndarray:
     return out
 
 
+def patch_cells(grid: Grid, cell: int, heading: int, size: int) -> np.ndarray:
+    """(size, size) int64 id of the navigable cell under each entry of a pose's egocentric patch, -1 where the
+    floor is not navigable or off the grid; row 0 is ahead, column 0 is to the left."""
+    ij = grid.ij[cell] + patch_offsets(size, grid.heading_angle(heading))  # (size, size, 2)
+    shape = grid.index.shape
+    inside = (ij[..., 0] >= 0) & (ij[..., 0] < shape[0]) & (ij[..., 1] >= 0) & (ij[..., 1] < shape[1])
+    ids = np.full(inside.shape, -1, np.int64)
+    ids[inside] = grid.index[ij[..., 0][inside], ij[..., 1][inside]]
+    return ids
+
+
 def occupancy_patch(grid: Grid, cell: int, heading: int, size: int) -> np.ndarray:
     """(size, size) read-only float32: 1 where the floor around the listener is not navigable, and on the four
     neighbours the listener cannot step to; row 0 is ahead, column 0 is to the left."""
-    off = patch_offsets(size, grid.heading_angle(heading))
-    ij = grid.ij[cell] + off  # (size, size, 2)
-    inside = (ij[..., 0] >= 0) & (ij[..., 0] < grid.index.shape[0]) & (ij[..., 1] >= 0) & (ij[..., 1] < grid.index.shape[1])
-    ids = np.full(inside.shape, -1, np.int64)
-    ids[inside] = grid.index[ij[..., 0][inside], ij[..., 1][inside]]
-    out = (ids < 0).astype(np.float32)
+    out = (patch_cells(grid, cell, heading, size) < 0).astype(np.float32)
     half = size // 2
     # A thin wall between two navigable cells blocks the move without filling either cell: mark the
     # neighbour as blocked when the move to it is, so the map shows every wall the listener can bump into.

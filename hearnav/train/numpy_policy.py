@@ -120,9 +120,10 @@ class NumpyNetwork:
         return cls(keys, shapes, activation, hidden, action, convs, scales)
 
     def check(self, observation: dict) -> None:
-        """PolicyError unless ``observation`` has the keys and shapes the network was trained on."""
+        """PolicyError unless ``observation`` has every key the network was trained on, with its shape (keys the
+        network does not read are ignored: a key added to the environment leaves older networks working)."""
         found = {k: tuple(np.shape(v)) for k, v in observation.items()}
-        if set(found) != set(self.keys) or any(found[k] != self.shapes[k] for k in self.keys):
+        if any(found.get(k) != self.shapes[k] for k in self.keys):
             raise PolicyError(f"the observation has keys and shapes {short_repr(found, 160)}, but the network was "
                               f"trained on {short_repr(self.shapes, 160)}; train and export it on this environment")
 

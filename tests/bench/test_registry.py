@@ -97,3 +97,22 @@ def test_sb3_adapter_passes_state_and_episode_start():
     assert model.calls == [(None, True, True), ("hidden", False, True)]
     with pytest.raises(PolicyError, match="needs a predict"):
         SB3Policy(object())
+
+
+def test_sb3_adapter_passes_only_the_keys_the_model_reads():
+    from gymnasium import spaces
+
+    class Model:
+        observation_space = spaces.Dict({"a": spaces.Box(0, 1, (1,)), "b": spaces.Box(0, 1, (1,))})
+
+        def predict(self, observation, state=None, episode_start=None, deterministic=True):
+            self.seen = sorted(observation)
+            return np.array(1), None
+
+    model = Model()
+    policy = as_policy(model)
+    policy.reset({}, {})
+    assert policy.act({"a": 0, "b": 1, "visits": 2}, {}) == 1 and model.seen == ["a", "b"]
+    with pytest.raises(PolicyError, match="the model reads the observation keys a, b, but the observation lacks b; "
+                                          "train the model on this environment"):
+        policy.act({"a": 0}, {})

@@ -91,6 +91,16 @@ def test_observation_of_another_environment_is_refused(tmp_path):
         policy.reset({"x": np.zeros(3, np.float32)}, {})
 
 
+def test_keys_the_network_was_not_trained_on_are_ignored(tmp_path):
+    policy = NumpyPolicy(_tiny_network(tmp_path))
+    x = np.array([0.5, 2.0], np.float32)
+    policy.reset({"x": x, "visits": np.ones((3, 3), np.float32)}, {})  # a key added to the environment later
+    assert policy.act({"x": x, "visits": np.ones((3, 3), np.float32)}, {}) == policy.act({"x": x}, {}) == 3
+    with pytest.raises(PolicyError, match=r"the observation has keys and shapes \{'visits': \(3, 3\)\}, but the "
+                                          r"network was trained on \{'x': \(2,\)\}"):
+        policy.reset({"visits": np.ones((3, 3), np.float32)}, {})
+
+
 def test_shipped_agent_plays_the_environment(make_env):
     name, policy = load_policy("ppo-tiny")
     assert name == "ppo-tiny" and policy.privileged is False
