@@ -36,7 +36,7 @@ class PPOOptions(BaseModel):
 
 
 class NetOptions(BaseModel):
-    """The policy network: each observation key scaled from its bounds to [-1, 1] (``scale_inputs``), through the
+    """The policy network: each observation key it reads (``keys``) scaled from its bounds to [-1, 1] (``scale_inputs``), through the
     extractor ("flat": flattened; "cnn": 3 x 3 convolutions with ``filters`` on every (C, H, W) key, flattening the
     rest), concatenated, then an MLP for the policy and one for the value (the extractor is shared)."""
 
@@ -48,6 +48,8 @@ class NetOptions(BaseModel):
 
     scale_inputs: StrictBool = Field(default=True, description="map each observation key from its Box bounds to "
                                      "[-1, 1] before the network (band levels span -120 to +40 dB)")
+    keys: list[StrictStr] | None = Field(default=None, min_length=1, description="the observation keys the network "
+                                         "reads (None: every key); the others are not passed to it")
     hidden: list[StrictInt] = Field(default_factory=lambda: [64, 64], max_length=8,
                                     description="units of each hidden layer (shared sizes, separate networks)")
     activation: Literal["tanh", "relu"] = "tanh"

@@ -44,19 +44,21 @@ def conv_stack(channels: int, filters: list[int]) -> nn.Sequential:
 
 
 class ScaledExtractor(BaseFeaturesExtractor):
-    """Each key scaled to [-1, 1] by its bounds (:func:`box_scale`, when ``scale``), then through
-    :func:`conv_stack` if it has a 3-D shape and ``filters`` are given, else flattened; all concatenated in the
-    space's key order.
+    """Each key read (``keys``, None: all) scaled to [-1, 1] by its bounds (:func:`box_scale`, when ``scale``), then
+    through :func:`conv_stack` if it has a 3-D shape and ``filters`` are given, else flattened; all concatenated in
+    the space's key order.
 
     Raw band levels span -120 to +40 dB; unscaled, they saturate a tanh network's first layer and drown the
     small inputs (the target cue, the map), so scaling is the default.
     """
 
-    def __init__(self, observation_space: spaces.Dict, filters: list[int] | None = None, scale: bool = True):
+    def __init__(self, observation_space: spaces.Dict, filters: list[int] | None = None, scale: bool = True,
+                 keys: list[str] | None = None):
         filters = list(filters or [])
         extractors: dict[str, nn.Module] = {}
         width = 0
-        for key, space in observation_space.spaces.items():
+        read = {k: v for k, v in observation_space.spaces.items() if keys is None or k in keys}
+        for key, space in read.items():
             shape = space.shape
             if len(shape) == 3 and filters:
                 extractors[key] = conv_stack(shape[0], filters)
@@ -66,7 +68,7 @@ class ScaledExtractor(BaseFeaturesExtractor):
                 width += int(np.prod(shape))
         super().__init__(observation_space, features_dim=width)
         self.extractors = nn.ModuleDict(extractors)
-        for j, space in enumerate(observation_space.spaces.values()):  # buffers by index: keys may hold dots
+        for j, space in enumerate(read.values()):  # buffers by index: keys may hold dots
             gain, offset = box_scale(space) if scale else (np.ones(space.shape, np.float32),
                                                            np.zeros(space.shape, np.float32))
             self.register_buffer(f"gain_{j}", torch.as_tensor(gain))

@@ -18,7 +18,7 @@ from typing import Any
 
 import numpy as np
 
-from hearnav.errors import ConfigError, HearnavError, short_repr, shown_path
+from hearnav.errors import ConfigError, HearnavError, did_you_mean, short_repr, shown_path
 from hearnav.train.config import TrainConfig
 from hearnav.train.runinfo import RESUMABLE, command_line, config_digest, read_json, versions, write_json
 
@@ -81,8 +81,15 @@ def new_model(config: TrainConfig, venv: Any, seed: int) -> Any:
     from hearnav.train.extractor import ScaledExtractor
 
     filters = list(config.net.filters) if config.net.extractor == "cnn" else []
+    keys = config.net.keys
+    for key in keys or ():
+        if key not in venv.observation_space.spaces:
+            names = list(venv.observation_space.spaces)
+            raise ConfigError(f"option 'net.keys': unknown observation key {key!r} (expected keys of the "
+                              f"environment's observation); {did_you_mean(key, names)}")
     kwargs.update(features_extractor_class=ScaledExtractor,
-                  features_extractor_kwargs={"filters": filters, "scale": config.net.scale_inputs})
+                  features_extractor_kwargs={"filters": filters, "scale": config.net.scale_inputs,
+                                             "keys": None if keys is None else list(keys)})
     return PPO("MultiInputPolicy", venv, policy_kwargs=kwargs, device="cpu", seed=seed, verbose=0,
                **config.ppo.model_dump())
 

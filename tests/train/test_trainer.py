@@ -121,7 +121,8 @@ def test_ctrl_c_saves_a_checkpoint_and_resume_goes_on_from_it(suite_file, tmp_pa
 
 @pytest.mark.slow
 @pytest.mark.parametrize("net", [{"hidden": [16, 16]}, {"extractor": "cnn", "filters": [4, 4], "hidden": [16],
-                                                         "activation": "relu"}])
+                                                         "activation": "relu"},
+                                 {"hidden": [16], "keys": ["visits", "target", "map"]}])
 def test_numpy_forward_pass_matches_the_sb3_policy_on_200_observations(suite_file, tmp_path, make_env, net):
     from hearnav.train.numpy_policy import NumpyNetwork
     from hearnav.train.sb3 import load_model
@@ -129,6 +130,8 @@ def test_numpy_forward_pass_matches_the_sb3_policy_on_200_observations(suite_fil
     out = tmp_path / "run"
     train(make_train_config(smoke_config(str(suite_file), total_steps=128, net=net)), out, progress=False)
     model, network = load_model(out / "best.zip"), NumpyNetwork.load(out / "best.npz")
+    space_order = list(model.observation_space.spaces)  # gymnasium sorts a Dict space's keys
+    assert network.keys == ([k for k in space_order if k in net["keys"]] if "keys" in net else space_order)
     env, observations, rng = make_env(), [], np.random.default_rng(0)
     while len(observations) < 200:  # recorded from rollouts of the model's own (sampled) actions
         obs, _ = env.reset(seed=len(observations))
@@ -147,6 +150,14 @@ def test_numpy_forward_pass_matches_the_sb3_policy_on_200_observations(suite_fil
         logits = model.policy.get_distribution(tensor).distribution.logits.numpy()[0]
     np.testing.assert_allclose(network.logits(observations[0]) - np.log(np.sum(np.exp(network.logits(observations[0])))),
                                logits, rtol=1e-5, atol=1e-5)  # torch's Categorical keeps normalised logits
+
+
+def test_unknown_network_key_is_refused_before_training(suite_file, tmp_path):
+    data = smoke_config(str(suite_file), net={"keys": ["map", "visit"]})
+    with pytest.raises(ConfigError, match=r"^option 'net.keys': unknown observation key 'visit' \(expected keys of "
+                                          r"the environment's observation\); did you mean 'visits'\?$"):
+        train(make_train_config(data), tmp_path / "run", progress=False)
+    assert not (tmp_path / "run" / "checkpoint.json").exists()
 
 
 def test_eval_suite_with_other_observation_shapes_is_refused_before_training(suite_file, tmp_path):
