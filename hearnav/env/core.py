@@ -19,17 +19,18 @@ from hearnav.env.episode import (
     draw_episode,
     dry_signals,
 )
+from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor, band_edges
 from hearnav.env.gating import scored_windows, window_energies
 from hearnav.env.odometry import visit_patch
-from hearnav.env.features import ILD_DB, LEVEL_DB, FeatureExtractor, band_edges
 from hearnav.env.privileged import PrivilegedView
 from hearnav.env.scoring import SILENT_ENERGY, binaural_scores, window_scores
-from hearnav.env.standoff import StandoffMoves, ring_cells, ring_patch
+from hearnav.env.standoff import StandoffMoves, ring_cells
 from hearnav.env.worlds import World, get_maps, get_world, scene_list
 from hearnav.errors import ConfigError, HearnavError, did_you_mean, short_repr
 from hearnav.listening import FADE_S, ListeningSession, Source, Window
 from hearnav.separation import SeparationContext, get_separator
 from hearnav.separation.stft import stft
+from hearnav.tables.maps import patch_cells, patch_values
 
 __all__ = ["ACTION_NAMES", "Action", "HearNavEnv", "Heard", "InvalidActionError", "RESET_OPTIONS", "SILENT_ENERGY",
            "check_reset_options", "scored_part"]
@@ -293,7 +294,7 @@ class HearNavEnv(gym.Env):
         self.cell, self.heading = plan.start_cell, plan.start_heading
         self.steps = 0
         self._path = [(self.cell, self.heading)]
-        self._steps_in = np.zeros(world.grid.n_cells, np.float32)  # steps spent in each cell (odometry)
+        self._steps_in = np.zeros(world.grid.n_cells, np.float32)  # steps in each cell: _path counted as it grows
         self._steps_in[self.cell] = 1.0
         self._spot_ids = [p.spot for p in plan.sources]
         self._poses = world.poses  # the scene's tables, memory-mapped from the store
@@ -445,11 +446,12 @@ class HearNavEnv(gym.Env):
         else:
             binaural = self.features.binaural(self._spec)
             estimate = np.concatenate([self.features.mono_signal(ear) for ear in self._heard.estimate])
+        cells = patch_cells(self.world.grid, self.cell, self.heading, self.config.patch_size)  # map and visits share it
         return {
             "binaural": binaural,
             "estimate": estimate,
-            "map": self._map(),
-            "visits": visit_patch(self.world.grid, self._steps_in, self.cell, self.heading, self.config.patch_size),
+            "map": self._map(cells),
+            "visits": visit_patch(self._steps_in, cells),
             "target": self._target_cue(),
             "budget": np.array([1.0 - self.steps / self.config.budget], np.float32),
         }
@@ -467,10 +469,11 @@ class HearNavEnv(gym.Env):
         bearing = float(self._poses.arrival[self.cell, self.heading, spot])
         return np.array([0.0, math.sin(bearing), math.cos(bearing)], np.float32)
 
-    def _map(self) -> np.ndarray:
-        """The egocentric map at the current pose: the stand-off ring's cells are not navigable."""
+    def _map(self, cells: np.ndarray) -> np.ndarray:
+        """The egocentric map at the current pose (``cells``: its patch cells): the stand-off ring's cells are not
+        navigable."""
         out = self._maps.patch(self.cell, self.heading, self._spot_ids)
-        out[0][ring_patch(self.world.grid, self.moves.blocked, self.cell, self.heading, self.config.patch_size)] = 1.0
+        out[0][patch_values(cells, self.moves.blocked, False)] = 1.0
         return out
 
     def _info(self) -> dict[str, Any]:

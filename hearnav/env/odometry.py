@@ -5,25 +5,20 @@ from __future__ import annotations
 
 import numpy as np
 
-from hearnav.scene.grid import Grid
-from hearnav.tables.maps import patch_cells
+from hearnav.tables.maps import patch_values
 
 #: Steps spent in a cell at which its entry of the visit patch reaches 1 (entries are capped there).
 VISIT_STEPS = 4
 
 
-def visit_patch(grid: Grid, steps_in: np.ndarray, cell: int, heading: int, size: int) -> np.ndarray:
+def visit_patch(steps_in: np.ndarray, cells: np.ndarray) -> np.ndarray:
     """(size, size) float32 egocentric visit patch of a pose, row 0 ahead, column 0 left (the layout of
     :func:`hearnav.tables.maps.occupancy_patch`): the steps spent in the cell under each entry over
     :data:`VISIT_STEPS`, capped at 1; 0 off the navigable floor.
 
     Parameters
     ----------
-    grid : the scene's grid.
     steps_in : (n_cells,) steps spent in each cell so far (the start counts as one).
-    cell, heading : the pose.
-    size : patch side in cells (odd).
+    cells : (size, size) the pose's patch cells (:func:`hearnav.tables.maps.patch_cells`), -1 off the floor.
     """
-    ids = patch_cells(grid, cell, heading, size)
-    steps = np.where(ids >= 0, steps_in[np.maximum(ids, 0)], 0.0)
-    return np.minimum(steps / VISIT_STEPS, 1.0).astype(np.float32)
+    return np.minimum(patch_values(cells, steps_in, 0.0) / VISIT_STEPS, 1.0).astype(np.float32)

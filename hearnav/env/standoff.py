@@ -13,7 +13,6 @@ from dataclasses import dataclass
 import numpy as np
 
 from hearnav.scene.grid import Grid
-from hearnav.tables.maps import patch_cells
 
 
 def ring_cells(grid: Grid, spots_xy: np.ndarray, standoff_m: float) -> np.ndarray:
@@ -42,10 +41,3 @@ class StandoffMoves:
         """The cell ahead, or -1 where a wall or the ring is in the way."""
         ahead = self.grid.forward(cell, heading)
         return -1 if ahead < 0 or self.blocked[ahead] else ahead
-
-
-def ring_patch(grid: Grid, blocked: np.ndarray, cell: int, heading: int, size: int) -> np.ndarray:
-    """(size, size) bool: the ring's cells in the egocentric patch of a pose (row 0 ahead, column 0 left, the
-    layout of :func:`hearnav.tables.maps.occupancy_patch`)."""
-    ids = patch_cells(grid, cell, heading, size)
-    return (ids >= 0) & blocked[np.maximum(ids, 0)]

@@ -38,6 +38,18 @@ def patch_cells(grid: Grid, cell: int, heading: int, size: int) -> np.ndarray:
     return ids
 
 
+def patch_values(cells: np.ndarray, per_cell: np.ndarray, fill) -> np.ndarray:
+    """A per-cell array under each entry of a patch: (size, size) ``per_cell[cells]``, ``fill`` where ``cells`` (of
+    :func:`patch_cells`) is -1, off the navigable floor.
+
+    Parameters
+    ----------
+    cells : (size, size) int64 cell ids of a pose's patch, -1 off the floor.
+    per_cell : (n_cells,) one value per cell of the grid.
+    """
+    return np.where(cells >= 0, per_cell[np.maximum(cells, 0)], fill)
+
+
 def occupancy_patch(grid: Grid, cell: int, heading: int, size: int) -> np.ndarray:
     """(size, size) read-only float32: 1 where the floor around the listener is not navigable, and on the four
     neighbours the listener cannot step to; row 0 is ahead, column 0 is to the left."""

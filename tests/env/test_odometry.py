@@ -21,13 +21,13 @@ def test_visit_patch_counts_steps_per_cell_in_the_map_layout():
     steps_in[cell] = 2
     ahead = grid.forward(cell, 0)
     steps_in[ahead] = 9
-    patch = visit_patch(grid, steps_in, cell, 0, 5)
+    ids = patch_cells(grid, cell, 0, 5)
+    patch = visit_patch(steps_in, ids)
     assert patch.shape == (5, 5) and patch.dtype == np.float32
     assert patch[2, 2] == 2 / VISIT_STEPS  # the centre is the listener's own cell
     assert patch[1, 2] == 1.0  # one cell ahead, capped at 1
     assert np.count_nonzero(patch) == 2
     # off the floor the entry is 0, where the occupancy patch of the same pose shows 1 (the two share the layout)
-    ids = patch_cells(grid, cell, 0, 5)
     np.testing.assert_array_equal(ids < 0, occupancy_patch(grid, cell, 0, 5) == 1.0)
 
 
@@ -41,6 +41,7 @@ def test_env_counts_each_step_in_the_cell_it_ends_in(make_env):
         assert obs["visits"][half, half] == (k + 2) / VISIT_STEPS
     start = env.cell
     heading = next(h for h in range(env.world.grid.n_headings) if env.moves.forward(start, h) >= 0)
+    obs, *_ = env.step(Action.TURN_LEFT)  # at least one turn, then on to an open heading
     while env.heading != heading:
         obs, *_ = env.step(Action.TURN_LEFT)
     assert obs["visits"][half, half] == 1.0  # turns count as steps in the cell (capped)
